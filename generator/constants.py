@@ -1,0 +1,85 @@
+"""Physical constants, each with its source and edition.
+
+Internal units: MeV for energies, mm for lengths inside events, cm for cross sections
+(cm²) and fluxes (cm⁻² s⁻¹), seconds for exposure times.
+
+CODATA values come from :mod:`scipy.constants` (CODATA 2022 in scipy ≥ 1.15; the edition is
+whatever the installed scipy ships and is recorded in the event files through
+:data:`CODATA_EDITION_NOTE`). Quantities CODATA does not provide are taken from the PDG
+Review of Particle Physics or the IAU, cited beside each value.
+"""
+
+from __future__ import annotations
+
+import math
+
+import scipy as _scipy
+import scipy.constants as _sc
+
+__all__ = [
+    "ALPHA",
+    "AU_CM",
+    "AVOGADRO",
+    "CODATA_EDITION_NOTE",
+    "ELECTRON_MASS",
+    "FERMI_CONSTANT",
+    "HBARC_MEV_CM",
+    "HBARC_MEV_FM",
+    "HBARC2_MEV2_CM2",
+    "R_SUN_KM",
+    "SIN2_THETA_W_MZ",
+    "SECONDS_PER_DAY",
+    "SECONDS_PER_JULIAN_YEAR",
+    "CLASSICAL_ELECTRON_RADIUS_CM",
+    "MATTER_POTENTIAL_EV_PER_NA",
+]
+
+_pc = _sc.physical_constants
+
+#: Fermi coupling constant G_F/(ħc)³ in MeV⁻² (CODATA via scipy.constants, GeV⁻² → MeV⁻²).
+FERMI_CONSTANT: float = _pc["Fermi coupling constant"][0] * 1e-6
+
+#: Electron mass m_e c² in MeV (CODATA via scipy.constants).
+ELECTRON_MASS: float = _pc["electron mass energy equivalent in MeV"][0]
+
+#: Fine-structure constant α (CODATA via scipy.constants).
+ALPHA: float = _pc["fine-structure constant"][0]
+
+#: ħc in MeV fm (CODATA via scipy.constants; exact in the 2019 SI).
+HBARC_MEV_FM: float = _pc["reduced Planck constant times c in MeV fm"][0]
+
+#: ħc in MeV cm.
+HBARC_MEV_CM: float = HBARC_MEV_FM * 1e-13
+
+#: (ħc)² in MeV² cm², converts MeV⁻² to cm².
+HBARC2_MEV2_CM2: float = HBARC_MEV_CM**2
+
+#: Avogadro constant in mol⁻¹ (CODATA via scipy.constants; exact in the 2019 SI).
+AVOGADRO: float = _sc.N_A
+
+#: Classical electron radius in cm (CODATA via scipy.constants).
+CLASSICAL_ELECTRON_RADIUS_CM: float = _pc["classical electron radius"][0] * 100.0
+
+#: Astronomical unit in cm (IAU 2012 Resolution B2, exact; scipy.constants.au).
+AU_CM: float = _sc.au * 100.0
+
+#: Nominal solar radius in km (IAU 2015 Resolution B3: R⊙ = 6.957 × 10⁸ m).
+R_SUN_KM: float = 6.957e5
+
+#: MS-bar weak mixing angle sin²θ̂_W(M_Z) = 0.23129 (PDG 2024, Review of Particle Physics,
+#: "Electroweak model and constraints on new physics", Erler & Freitas) — from memory,
+#: not re-read from the table. Used in the tree-level couplings; see generator.xsec.
+SIN2_THETA_W_MZ: float = 0.23129
+
+#: Seconds per day.
+SECONDS_PER_DAY: float = 86400.0
+
+#: Seconds per Julian year (365.25 d, IAU).
+SECONDS_PER_JULIAN_YEAR: float = 365.25 * 86400.0
+
+#: √2 G_F N_A in eV per (N_A cm⁻³) of electron density: V_CC = √2 G_F n_e
+#: (Wolfenstein, Phys. Rev. D 17, 2369 (1978)); ≈ 7.63 × 10⁻¹⁴ eV.
+MATTER_POTENTIAL_EV_PER_NA: float = math.sqrt(2.0) * FERMI_CONSTANT * AVOGADRO * HBARC_MEV_CM**3 * 1e6
+
+#: Human-readable note of where the CODATA values came from (stored in event files).
+CODATA_EDITION_NOTE: str = f"scipy.constants of scipy {_scipy.__version__}"
