@@ -1,0 +1,587 @@
+"""Run configuration: TOML files parsed into frozen dataclasses and validated at the boundary.
+
+A configuration file has the sections ``[detector]``, ``[exposure]``, ``[sources]``,
+``[oscillation]``, ``[interaction]``, ``[run]`` and ``[output]``. The sections ``[response]``
+and ``[backgrounds]`` are reserved for stages on the roadmap: they are rejected with a clear
+message until those stages exist. The embedded default (``generator/data/default.toml``, a
+fictional mid-size water-Cherenkov detector at a fictional site) is used when no file is given;
+a user file is merged over it key by key (for ``[exposure]`` a file that sets any of
+``stop_utc``, ``live_days`` or ``run_list`` replaces the default's choice of time window).
+
+Every error is a :class:`~generator.errors.ConfigError` that names the key path, the bad value
+and what is allowed.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass, fields
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from .errors import ConfigError
+
+__all__ = [
+    "Config",
+    "DetectorConfig",
+    "ExposureConfig",
+    "SourcesConfig",
+    "CustomSourceConfig",
+    "OscillationConfig",
+    "InteractionConfig",
+    "RunConfig",
+    "OutputConfig",
+    "load_config",
+    "parse_config",
+    "default_config_text",
+    "to_toml",
+]
+
+KNOWN_SOURCES = ("pp", "pep", "hep", "7Be", "8B", "13N", "15O", "17F")
+RESERVED_SECTIONS = {
+    "response": "the detector-response stage is not implemented yet",
+    "backgrounds": "the radioactive-background stage is not implemented yet",
+}
+COMPRESSIONS = ("blosc-lz4", "zstd", "lzf", "gzip", "none")
+COUNT_MODES = ("fixed", "expected", "poisson")
+#: Lowest generation threshold (MeV). Recoils below it need neutrinos under 0.08 MeV and
+#: atomic-binding corrections (keV scale) that the free-electron cross sections do not include.
+MIN_THRESHOLD_MEV = 0.02
+
+
+# --------------------------------------------------------------------------- dataclasses
+@dataclass(frozen=True)
+class DetectorConfig:
+    """Detector: medium, fiducial geometry (m) and site (degrees, m)."""
+
+    name: str
+    medium: str
+    fiducial_shape: str
+    fiducial_radius_m: float
+    fiducial_half_height_m: float
+    latitude_deg: float
+    longitude_deg: float
+    depth_m: float
+
+
+@dataclass(frozen=True)
+class ExposureConfig:
+    """Exposure window: either [start_utc, stop_utc], start_utc + live_days, or a run list."""
+
+    start_utc: str | None
+    stop_utc: str | None
+    live_days: float | None
+    run_list: str | None
+
+
+@dataclass(frozen=True)
+class CustomSourceConfig:
+    """A user-defined source: spectrum table file, flux at 1 AU (cm⁻² s⁻¹) and the standard
+    source whose solar production region it shares (for the MSW average)."""
+
+    name: str
+    spectrum_file: str
+    flux: float
+    production_region: str
+
+
+@dataclass(frozen=True)
+class SourcesConfig:
+    """Which SSM sources, which flux model, scale factors and absolute overrides."""
+
+    flux_model: str
+    include: tuple[str, ...]
+    b8_shape: str
+    scale: tuple[tuple[str, float], ...]
+    flux_override: tuple[tuple[str, float], ...]
+    custom: tuple[CustomSourceConfig, ...]
+
+
+@dataclass(frozen=True)
+class OscillationConfig:
+    """Flavour conversion: preset name plus optional per-parameter overrides."""
+
+    enabled: bool
+    preset: str
+    earth_matter: bool
+    solar_profile: str
+    sin2_theta12: float | None
+    sin2_theta13: float | None
+    sin2_theta23: float | None
+    delta_cp_deg: float | None
+    dm2_21: float | None
+    dm2_31: float | None
+
+
+@dataclass(frozen=True)
+class InteractionConfig:
+    """ν–e scattering model and the generation threshold on the recoil kinetic energy (MeV)."""
+
+    corrections: str
+    threshold_mev: float
+    magnetic_moment: float
+    nsi_eps_l: tuple[float, float, float]
+    nsi_eps_r: tuple[float, float, float]
+
+
+@dataclass(frozen=True)
+class RunConfig:
+    """Event count, count mode, seed and chunk size."""
+
+    events: int
+    count_mode: str
+    seed: int | None
+    chunk_size: int
+
+
+@dataclass(frozen=True)
+class OutputConfig:
+    """Output file path and compression filter."""
+
+    path: str
+    compression: str
+    compression_level: int | None
+
+
+@dataclass(frozen=True)
+class Config:
+    """The complete, validated configuration of one run."""
+
+    detector: DetectorConfig
+    exposure: ExposureConfig
+    sources: SourcesConfig
+    oscillation: OscillationConfig
+    interaction: InteractionConfig
+    run: RunConfig
+    output: OutputConfig
+    source_file: str | None = None
+
+
+# --------------------------------------------------------------------------- value checks
+_MISSING = object()
+
+
+def _fmt(value: Any) -> str:
+    return repr(value)
+
+
+class _Section:
+    """Reads typed values from one TOML table and reports unknown keys."""
+
+    def __init__(self, table: Any, path: str):
+        if not isinstance(table, dict):
+            raise ConfigError(f"{path}: expected a table, got {_fmt(table)}")
+        self.table = table
+        self.path = path
+        self.used: set[str] = set()
+
+    def _get(self, key: str, default: Any) -> Any:
+        self.used.add(key)
+        if key in self.table:
+            return self.table[key]
+        if default is _MISSING:
+            raise ConfigError(f"{self.path}.{key}: required key is missing")
+        return default
+
+    def string(self, key: str, default: Any = _MISSING, choices: tuple[str, ...] | None = None,
+               optional: bool = False) -> str | None:
+        v = self._get(key, None if optional and default is _MISSING else default)
+        if v is None and optional:
+            return None
+        if not isinstance(v, str):
+            raise ConfigError(f"{self.path}.{key}: expected a string, got {_fmt(v)}")
+        if choices is not None and v not in choices:
+            raise ConfigError(f"{self.path}.{key}: {_fmt(v)} is not allowed; use one of {choices}")
+        if choices is None and not v.strip():
+            raise ConfigError(f"{self.path}.{key}: must not be empty")
+        return v
+
+    def boolean(self, key: str, default: Any = _MISSING) -> bool:
+        v = self._get(key, default)
+        if not isinstance(v, bool):
+            raise ConfigError(f"{self.path}.{key}: expected true or false, got {_fmt(v)}")
+        return v
+
+    def number(self, key: str, default: Any = _MISSING, *, lo: float | None = None,
+               hi: float | None = None, lo_open: bool = False, optional: bool = False
+               ) -> float | None:
+        v = self._get(key, None if optional and default is _MISSING else default)
+        if v is None and optional:
+            return None
+        return _check_number(f"{self.path}.{key}", v, lo, hi, lo_open)
+
+    def integer(self, key: str, default: Any = _MISSING, *, lo: int | None = None,
+                hi: int | None = None, optional: bool = False) -> int | None:
+        v = self._get(key, None if optional and default is _MISSING else default)
+        if v is None and optional:
+            return None
+        if isinstance(v, bool) or not isinstance(v, int):
+            raise ConfigError(f"{self.path}.{key}: expected an integer, got {_fmt(v)}")
+        if lo is not None and v < lo:
+            raise ConfigError(f"{self.path}.{key}: {v} is below the minimum {lo}")
+        if hi is not None and v > hi:
+            raise ConfigError(f"{self.path}.{key}: {v} is above the maximum {hi}")
+        return v
+
+    def finish(self) -> None:
+        unknown = sorted(set(self.table) - self.used)
+        if unknown:
+            raise ConfigError(
+                f"{self.path}: unknown key(s) {unknown}; allowed keys: {sorted(self.used)}"
+            )
+
+
+def _check_number(path: str, v: Any, lo: float | None, hi: float | None,
+                  lo_open: bool = False) -> float:
+    if isinstance(v, bool) or not isinstance(v, int | float):
+        raise ConfigError(f"{path}: expected a number, got {_fmt(v)}")
+    v = float(v)
+    if not math.isfinite(v):
+        raise ConfigError(f"{path}: {v} is not finite; a finite number is required")
+    if lo is not None and (v < lo or (lo_open and v == lo)):
+        rel = ">" if lo_open else "≥"
+        raise ConfigError(f"{path}: {v} is out of range; must be {rel} {lo}")
+    if hi is not None and v > hi:
+        raise ConfigError(f"{path}: {v} is out of range; must be ≤ {hi}")
+    return v
+
+
+# --------------------------------------------------------------------------- sections
+def _parse_detector(t: Any) -> DetectorConfig:
+    s = _Section(t, "detector")
+    from .geometry import SHAPES
+    from .media import MEDIA
+
+    cfg = DetectorConfig(
+        name=s.string("name"),
+        medium=s.string("medium", choices=tuple(MEDIA)),
+        fiducial_shape=s.string("fiducial_shape", choices=SHAPES),
+        fiducial_radius_m=s.number("fiducial_radius_m", lo=0.0, hi=1000.0, lo_open=True),
+        fiducial_half_height_m=s.number("fiducial_half_height_m", 0.0, lo=0.0, hi=1000.0),
+        latitude_deg=s.number("latitude_deg", lo=-90.0, hi=90.0),
+        longitude_deg=s.number("longitude_deg", lo=-180.0, hi=180.0),
+        depth_m=s.number("depth_m", 0.0, lo=0.0, hi=10000.0),
+    )
+    s.finish()
+    if cfg.fiducial_shape == "cylinder" and cfg.fiducial_half_height_m <= 0.0:
+        raise ConfigError(
+            f"detector.fiducial_half_height_m: {cfg.fiducial_half_height_m} must be > 0 "
+            "for a cylinder"
+        )
+    return cfg
+
+
+def _parse_exposure(t: Any, base_dir: Path | None) -> ExposureConfig:
+    from .exposure import parse_utc
+
+    s = _Section(t, "exposure")
+    start = s.string("start_utc", optional=True)
+    stop = s.string("stop_utc", optional=True)
+    live = s.number("live_days", lo=0.0, hi=200.0 * 366.0, lo_open=True, optional=True)
+    run_list = s.string("run_list", optional=True)
+    s.finish()
+    if run_list is not None:
+        if start is not None or stop is not None or live is not None:
+            raise ConfigError(
+                "exposure.run_list: cannot be combined with start_utc/stop_utc/live_days; "
+                "give either a run list or a time window"
+            )
+        p = Path(run_list)
+        if not p.is_absolute() and base_dir is not None:
+            p = base_dir / p
+        run_list = str(p)
+        return ExposureConfig(None, None, None, run_list)
+    if start is None:
+        raise ConfigError("exposure.start_utc: required (or give exposure.run_list)")
+    t0 = parse_utc(start, "exposure.start_utc")
+    if (stop is None) == (live is None):
+        raise ConfigError(
+            "exposure: give exactly one of stop_utc or live_days together with start_utc "
+            f"(got stop_utc={stop!r}, live_days={live!r})"
+        )
+    if stop is not None:
+        t1 = parse_utc(stop, "exposure.stop_utc")
+        if t1 <= t0:
+            raise ConfigError(
+                f"exposure.stop_utc: {stop!r} is not after start_utc {start!r}; "
+                "the time range must be increasing"
+            )
+    else:
+        from .exposure import MAX_UNIX
+
+        if t0 + live * 86400.0 > MAX_UNIX:
+            raise ConfigError(
+                f"exposure.live_days: {live} days from {start!r} runs past 2200-01-01"
+            )
+    return ExposureConfig(start, stop, live, None)
+
+
+def _pairs(t: Any, path: str, lo: float, lo_open: bool) -> tuple[tuple[str, float], ...]:
+    if not isinstance(t, dict):
+        raise ConfigError(f"{path}: expected a table of source = number, got {_fmt(t)}")
+    out = []
+    for k, v in t.items():
+        out.append((k, _check_number(f"{path}.{k}", v, lo, 1e30, lo_open)))
+    return tuple(sorted(out))
+
+
+def _parse_sources(t: Any, base_dir: Path | None) -> SourcesConfig:
+    s = _Section(t, "sources")
+    flux_model = s.string("flux_model")
+    include = s._get("include", list(KNOWN_SOURCES))
+    if not isinstance(include, list) or not all(isinstance(x, str) for x in include):
+        raise ConfigError(f"sources.include: expected a list of source names, got {_fmt(include)}")
+    b8_shape = s.string("b8_shape", "nominal", choices=("nominal", "plus1sigma", "minus1sigma"))
+    scale = _pairs(s._get("scale", {}), "sources.scale", 0.0, False)
+    override = _pairs(s._get("flux_override", {}), "sources.flux_override", 0.0, False)
+    custom_raw = s._get("custom", [])
+    s.finish()
+    if not isinstance(custom_raw, list):
+        raise ConfigError(f"sources.custom: expected an array of tables, got {_fmt(custom_raw)}")
+    customs = []
+    for i, c in enumerate(custom_raw):
+        cs = _Section(c, f"sources.custom[{i}]")
+        name = cs.string("name")
+        f = cs.string("spectrum_file")
+        flux = cs.number("flux", lo=0.0, hi=1e30, lo_open=True)
+        region = cs.string("production_region", "8B", choices=KNOWN_SOURCES)
+        cs.finish()
+        p = Path(f)
+        if not p.is_absolute() and base_dir is not None:
+            p = base_dir / p
+        if name in KNOWN_SOURCES:
+            raise ConfigError(
+                f"sources.custom[{i}].name: {name!r} clashes with a standard source name"
+            )
+        customs.append(CustomSourceConfig(name, str(p), flux, region))
+    names = [c.name for c in customs]
+    if len(set(names)) != len(names):
+        raise ConfigError(f"sources.custom: duplicate names {names}")
+    for i, name in enumerate(include):
+        if name not in KNOWN_SOURCES:
+            raise ConfigError(
+                f"sources.include[{i}]: unknown source {name!r}; allowed: {list(KNOWN_SOURCES)}"
+            )
+    if len(set(include)) != len(include):
+        raise ConfigError(f"sources.include: duplicate entries in {include}")
+    allowed = set(include) | set(names)
+    for path, pairs in (("sources.scale", scale), ("sources.flux_override", override)):
+        for k, _ in pairs:
+            if k not in allowed:
+                raise ConfigError(
+                    f"{path}.{k}: not an included source; included: {sorted(allowed)}"
+                )
+    if not include and not customs:
+        raise ConfigError("sources.include: no source selected (empty list and no custom source)")
+    from .spectra import FLUX_MODELS
+
+    if flux_model not in FLUX_MODELS:
+        raise ConfigError(
+            f"sources.flux_model: unknown model {flux_model!r}; allowed: {list(FLUX_MODELS)}"
+        )
+    return SourcesConfig(flux_model, tuple(include), b8_shape, scale, override, tuple(customs))
+
+
+def _parse_oscillation(t: Any) -> OscillationConfig:
+    s = _Section(t, "oscillation")
+    enabled = s.boolean("enabled", True)
+    preset = s.string("preset", "nufit-6.0")
+    earth = s.boolean("earth_matter", True)
+    profile = s.string("solar_profile", "ssm", choices=("ssm", "exponential"))
+    vals = {}
+    for k in ("sin2_theta12", "sin2_theta13", "sin2_theta23"):
+        vals[k] = s.number(k, lo=0.0, hi=1.0, optional=True)
+    vals["delta_cp_deg"] = s.number("delta_cp_deg", lo=-360.0, hi=360.0, optional=True)
+    vals["dm2_21"] = s.number("dm2_21", lo=0.0, hi=1.0, lo_open=True, optional=True)
+    vals["dm2_31"] = s.number("dm2_31", lo=-1.0, hi=1.0, optional=True)
+    s.finish()
+    if vals["dm2_31"] == 0.0:
+        raise ConfigError("oscillation.dm2_31: 0.0 is not allowed; give a non-zero splitting (eV²)")
+    from .oscillation import PRESETS
+
+    if preset not in PRESETS:
+        raise ConfigError(f"oscillation.preset: unknown preset {preset!r}; allowed: {list(PRESETS)}")
+    return OscillationConfig(enabled, preset, earth, profile, **vals)
+
+
+def _triple(v: Any, path: str) -> tuple[float, float, float]:
+    if not isinstance(v, list) or len(v) != 3:
+        raise ConfigError(f"{path}: expected a list of three numbers [ee, μμ, ττ], got {_fmt(v)}")
+    return tuple(_check_number(f"{path}[{i}]", x, -10.0, 10.0) for i, x in enumerate(v))  # type: ignore[return-value]
+
+
+def _parse_interaction(t: Any) -> InteractionConfig:
+    s = _Section(t, "interaction")
+    cfg = InteractionConfig(
+        corrections=s.string("corrections", "radiative", choices=("radiative", "tree")),
+        threshold_mev=s.number("threshold_mev", lo=MIN_THRESHOLD_MEV, hi=15.0),
+        magnetic_moment=s.number("magnetic_moment", 0.0, lo=0.0, hi=1e4),
+        nsi_eps_l=_triple(s._get("nsi_eps_l", [0.0, 0.0, 0.0]), "interaction.nsi_eps_l"),
+        nsi_eps_r=_triple(s._get("nsi_eps_r", [0.0, 0.0, 0.0]), "interaction.nsi_eps_r"),
+    )
+    s.finish()
+    return cfg
+
+
+def _parse_run(t: Any) -> RunConfig:
+    s = _Section(t, "run")
+    cfg = RunConfig(
+        events=s.integer("events", lo=1, hi=10**12),
+        count_mode=s.string("count_mode", "fixed", choices=COUNT_MODES),
+        seed=s.integer("seed", lo=0, hi=2**128 - 1, optional=True),
+        chunk_size=s.integer("chunk_size", 1 << 18, lo=1, hi=1 << 26),
+    )
+    s.finish()
+    return cfg
+
+
+def _parse_output(t: Any) -> OutputConfig:
+    s = _Section(t, "output")
+    cfg = OutputConfig(
+        path=s.string("path"),
+        compression=s.string("compression", "blosc-lz4", choices=COMPRESSIONS),
+        compression_level=s.integer("compression_level", lo=0, hi=9, optional=True),
+    )
+    s.finish()
+    return cfg
+
+
+# --------------------------------------------------------------------------- loading
+def default_config_text() -> str:
+    """Return the text of the embedded default configuration (TOML)."""
+    return resources.files("generator").joinpath("data/default.toml").read_text("utf-8")
+
+
+def _merge(base: dict, over: dict) -> dict:
+    out = dict(base)
+    for k, v in over.items():
+        if k == "exposure" and isinstance(v, dict) and isinstance(out.get(k), dict):
+            keep = dict(out[k])
+            if any(x in v for x in ("stop_utc", "live_days", "run_list")):
+                for x in ("stop_utc", "live_days", "run_list"):
+                    keep.pop(x, None)
+            if "run_list" in v:
+                keep.pop("start_utc", None)
+            keep.update(v)
+            out[k] = keep
+        elif isinstance(v, dict) and isinstance(out.get(k), dict) and k != "custom":
+            out[k] = _merge(out[k], v)
+        else:
+            out[k] = v
+    return out
+
+
+def parse_config(data: dict, base_dir: Path | None = None, source_file: str | None = None
+                 ) -> Config:
+    """Validate a configuration mapping (already merged with defaults) into a :class:`Config`.
+
+    Parameters
+    ----------
+    data : dict
+        Parsed TOML document.
+    base_dir : pathlib.Path, optional
+        Directory against which relative data-file paths are resolved.
+    source_file : str, optional
+        Name of the file the data came from (recorded only).
+
+    Raises
+    ------
+    ConfigError
+        Naming the key path, the bad value and what is allowed.
+    """
+    known = ("detector", "exposure", "sources", "oscillation", "interaction", "run", "output")
+    for k in data:
+        if k in RESERVED_SECTIONS:
+            raise ConfigError(f"{k}: section not supported yet ({RESERVED_SECTIONS[k]})")
+        if k not in known:
+            raise ConfigError(f"{k}: unknown section; allowed sections: {list(known)}")
+    for k in known:
+        if k not in data:
+            raise ConfigError(f"{k}: required section is missing")
+    return Config(
+        detector=_parse_detector(data["detector"]),
+        exposure=_parse_exposure(data["exposure"], base_dir),
+        sources=_parse_sources(data["sources"], base_dir),
+        oscillation=_parse_oscillation(data["oscillation"]),
+        interaction=_parse_interaction(data["interaction"]),
+        run=_parse_run(data["run"]),
+        output=_parse_output(data["output"]),
+        source_file=source_file,
+    )
+
+
+def load_config(path: str | Path | None = None) -> Config:
+    """Load the embedded default configuration, merged with the TOML file ``path`` if given.
+
+    Raises
+    ------
+    ConfigError
+        For unreadable files, TOML syntax errors and invalid values.
+    """
+    default = tomllib.loads(default_config_text())
+    if path is None:
+        return parse_config(default, None, None)
+    p = Path(path)
+    try:
+        text = p.read_text("utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ConfigError(f"config file {str(p)!r}: cannot be read ({exc})") from None
+    try:
+        user = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"config file {str(p)!r}: invalid TOML ({exc})") from None
+    return parse_config(_merge(default, user), p.resolve().parent, str(p))
+
+
+# --------------------------------------------------------------------------- TOML output
+def _toml_value(v: Any) -> str:
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, int):
+        return str(v)
+    if isinstance(v, float):
+        return repr(v)
+    if isinstance(v, str):
+        return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    if isinstance(v, tuple | list):
+        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    raise TypeError(f"cannot write {v!r} as TOML")
+
+
+def _key(k: str) -> str:
+    return k if k.replace("_", "").replace("-", "").isalnum() and not k[0].isdigit() else f'"{k}"'
+
+
+def to_toml(cfg: Config) -> str:
+    """Write the effective configuration as TOML text (round-trips through :func:`parse_config`)."""
+    lines: list[str] = []
+    for section in fields(cfg):
+        if section.name == "source_file":
+            continue
+        obj = getattr(cfg, section.name)
+        lines.append(f"[{section.name}]")
+        tables: list[tuple[str, tuple]] = []
+        arrays: list[tuple[str, tuple]] = []
+        for f in fields(obj):
+            v = getattr(obj, f.name)
+            if v is None:
+                continue
+            if f.name in ("scale", "flux_override"):
+                tables.append((f.name, v))
+            elif f.name == "custom":
+                arrays.append((f.name, v))
+            else:
+                lines.append(f"{f.name} = {_toml_value(v)}")
+        for name, pairs in tables:
+            lines.append(f"\n[{section.name}.{name}]")
+            for k, val in pairs:
+                lines.append(f"{_key(k)} = {_toml_value(val)}")
+        for name, items in arrays:
+            for item in items:
+                lines.append(f"\n[[{section.name}.{name}]]")
+                for f in fields(item):
+                    lines.append(f"{f.name} = {_toml_value(getattr(item, f.name))}")
+        lines.append("")
+    return "\n".join(lines)
