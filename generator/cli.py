@@ -1,0 +1,124 @@
+"""Command-line interface: a thin shell around the library.
+
+Exit status: 0 success, 1 the run failed, 2 bad input or usage (nothing written).
+"""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+from . import __version__
+from .errors import InputError, SunrecoilError
+
+__all__ = ["main", "build_parser"]
+
+log = logging.getLogger("generator")
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message: str) -> None:  # argparse exits with 2 already; keep the text short
+        self.print_usage(sys.stderr)
+        self.exit(2, f"{self.prog}: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser of the ``sunrecoil`` command."""
+    p = _Parser(prog="sunrecoil",
+                description="Monte Carlo events of solar-neutrino elastic scattering on electrons.")
+    p.add_argument("--version", action="version", version=f"sunrecoil {__version__}")
+    sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    g = sub.add_parser("generate", help="generate an event file",
+                       description="Generate truth-level events into an HDF5 file. Without "
+                                   "CONFIG the embedded default detector is used.")
+    g.add_argument("config", nargs="?", help="TOML configuration file (merged over the default)")
+    g.add_argument("-o", "--output", help="output file (default: output.path of the config)")
+    g.add_argument("--events", type=int, help="number of events (overrides run.events and "
+                                              "run.count_mode)")
+    g.add_argument("--seed", type=int, help="root seed (overrides run.seed; random if neither)")
+    g.add_argument("--force", action="store_true", help="overwrite an existing output file")
+    g.add_argument("--quiet", action="store_true", help="no progress bar, warnings only")
+
+    c = sub.add_parser("config", help="configuration tools")
+    csub = c.add_subparsers(dest="config_command", required=True, parser_class=_Parser)
+    show = csub.add_parser("show", help="print the effective configuration as TOML",
+                           description="Print the effective configuration (defaults merged).")
+    show.add_argument("config", nargs="?", help="TOML configuration file")
+
+    i = sub.add_parser("inspect", help="summarise an event file",
+                       description="Counts by origin and flavour, energy ranges, exposure and "
+                                   "provenance of an event file.")
+    i.add_argument("file", help="HDF5 event file")
+    return p
+
+
+def _cmd_generate(args: argparse.Namespace) -> int:
+    from tqdm import tqdm
+
+    from .config import load_config
+    from .pipeline import generate
+
+    if args.events is not None and args.events < 1:
+        raise InputError(f"--events: {args.events} is not allowed; give a positive integer")
+    if args.seed is not None and not 0 <= args.seed < 2**128:
+        raise InputError(f"--seed: {args.seed} is out of range; use 0 ≤ seed < 2**128")
+    cfg = load_config(args.config)
+    bar = None
+    if not args.quiet:
+        bar = tqdm(total=args.events or None, unit="ev", unit_scale=True, file=sys.stderr,
+                   desc="generate")
+    try:
+        summary = generate(cfg, args.output, n_events=args.events, seed=args.seed,
+                           force=args.force, progress=bar.update if bar is not None else None)
+    finally:
+        if bar is not None:
+            bar.close()
+    if not args.quiet:
+        print(f"wrote {summary.n_events} events to {summary.path} "
+              f"(expected {summary.expected_events:.6g} for the exposure; "
+              f"seed {summary.seed_entropy})")
+    return 0
+
+
+def _cmd_config_show(args: argparse.Namespace) -> int:
+    from .config import load_config, to_toml
+
+    sys.stdout.write(to_toml(load_config(args.config)))
+    return 0
+
+
+def _cmd_inspect(args: argparse.Namespace) -> int:
+    from .summary import summarise
+
+    sys.stdout.write(summarise(Path(args.file)))
+    return 0
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the ``sunrecoil`` command; returns the exit status."""
+    args = build_parser().parse_args(argv)
+    logging.basicConfig(level=logging.WARNING if getattr(args, "quiet", False) else logging.INFO,
+                        format="%(levelname)s %(name)s: %(message)s", stream=sys.stderr)
+    try:
+        if args.command == "generate":
+            return _cmd_generate(args)
+        if args.command == "config":
+            return _cmd_config_show(args)
+        return _cmd_inspect(args)
+    except InputError as exc:
+        print(f"sunrecoil: error: {exc}", file=sys.stderr)
+        return 2
+    except SunrecoilError as exc:
+        print(f"sunrecoil: run failed: {exc}", file=sys.stderr)
+        return 1
+    except KeyboardInterrupt:
+        print("sunrecoil: interrupted; no output file was written", file=sys.stderr)
+        return 1
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

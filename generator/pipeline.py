@@ -1,0 +1,489 @@
+"""The generation pipeline: from a validated configuration to an event file.
+
+Physics of the event density
+----------------------------
+For source s with flux Φ_s at 1 AU and normalised spectrum f_s(E), the differential number of
+recoil-electron events with kinetic energy T above the generation threshold is
+
+    dN = N_e Φ_s (1 AU / r(t))² f_s(E) Σ_α P_α(s, E, θ_z(t)) dσ_α/dT  dt dE dT,
+
+with N_e target electrons, r(t) the Earth–Sun distance, P_α the probability that the νe
+produced by source s arrives as flavour α (day or night, through the Sun's zenith angle θ_z)
+and dσ_α/dT the ν_α–e cross section. Events are drawn exactly from this density:
+
+1. the source, in proportion to its expected count (computed deterministically, see
+   :func:`build_plan`);
+2. (E, t) from the proposal f_s(E) σ_max(E) × (1 AU / r(t))² on live time, with
+   σ_max = max_α σ_α(E; T > T_th);
+3. the flavour α with probability P_α σ_α / σ_max; the remaining probability rejects the
+   pair, which is drawn again (this is exact rejection sampling, and the acceptance never
+   enters the normalisation);
+4. T from dσ_α/dT (E) above the threshold, the electron direction from exact two-body
+   kinematics around the Sun-to-detector direction at time t, and the vertex uniformly in
+   the fiducial volume.
+
+Randomness and stream stability
+-------------------------------
+One :class:`numpy.random.SeedSequence` per run; chunk k of ``chunk_size`` events draws from
+``SeedSequence(entropy, spawn_key=(k,))`` only. A chunk is therefore a pure function of
+(package version, configuration, seed, chunk index, chunk size): reruns are bit-identical, and a
+later resume or a shard that generates chunks k₀…k₁ produces exactly the same events.
+The Poisson-fluctuated event count (``count_mode = "poisson"``) uses spawn key (2³¹,).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import logging
+import secrets
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from . import __version__, kinematics, spectra
+from .config import Config, to_toml
+from .constants import CODATA_EDITION_NOTE, SECONDS_PER_DAY
+from .errors import ConfigError
+from .exposure import Exposure, load_run_list, parse_utc
+from .geometry import FiducialVolume, make_fiducial
+from .io.schema import EVENT_FIELDS, FRAME_CONVENTION, LAYOUT_VERSION, empty_chunk
+from .io.writer import HDF5Sink, MemorySink
+from .media import Medium, get_medium
+from .oscillation import PRESETS, FlavourModel, OscillationParams
+from .recoil import RecoilSampler
+from .xsec import XsecModel
+
+__all__ = ["RunPlan", "SourcePlan", "build_plan", "generate", "generate_chunk", "chunk_seed",
+           "RunSummary", "COUNT_SPAWN_KEY"]
+
+log = logging.getLogger(__name__)
+
+#: Spawn key of the stream used for the Poisson-fluctuated event count.
+COUNT_SPAWN_KEY = (1 << 31,)
+
+#: Zenith-angle bins used for the deterministic exposure average of the flavour probabilities.
+N_ZENITH_BINS = 200
+
+#: PDG codes of the three neutrino flavours, in the column order of the probability tables.
+FLAVOUR_PDG = np.array([12, 14, 16], dtype=np.int16)
+
+#: Stages that are not implemented yet and therefore absent from the event files.
+ABSENT_STAGES = ("detector response (reconstructed fields)", "radioactive backgrounds")
+
+
+@dataclass
+class SourcePlan:
+    """Everything needed to draw events of one neutrino source."""
+
+    name: str
+    code: int
+    production_region: str
+    flux: float                       # cm⁻² s⁻¹ at 1 AU, after scaling/override
+    spectrum: Any                     # generator.spectra.Spectrum
+    proposal: Any                     # InverseCDFSampler over f_s(E) σ_max(E)
+    expected_events: float            # for the configured exposure
+    mean_sigma: float                 # exposure- and flavour-averaged σ per neutrino (cm²)
+    lines: tuple[tuple[float, float], ...] = ()
+
+
+@dataclass
+class RunPlan:
+    """Precomputed tables of one run (built once, reused by every chunk)."""
+
+    config: Config
+    medium: Medium
+    fiducial: FiducialVolume
+    n_electrons: float
+    exposure: Exposure
+    xsec: XsecModel
+    recoil: RecoilSampler
+    flavour: FlavourModel
+    pdgs: tuple[int, ...]
+    sources: list[SourcePlan]
+    expected_total: float
+    source_cdf: np.ndarray = field(repr=False)
+    zenith_edges: np.ndarray = field(repr=False)
+    zenith_weights: np.ndarray = field(repr=False)
+
+    @property
+    def expected_rate_per_day(self) -> float:
+        """Expected events per live day (above threshold, all sources)."""
+        return self.expected_total / (self.exposure.live_seconds / SECONDS_PER_DAY)
+
+
+def _intervals(cfg: Config) -> np.ndarray:
+    ex = cfg.exposure
+    if ex.run_list is not None:
+        return load_run_list(ex.run_list)
+    t0 = parse_utc(ex.start_utc, "exposure.start_utc")
+    if ex.stop_utc is not None:
+        t1 = parse_utc(ex.stop_utc, "exposure.stop_utc")
+    else:
+        t1 = t0 + ex.live_days * SECONDS_PER_DAY
+    return np.array([[t0, t1]], dtype=np.float64)
+
+
+def oscillation_params(cfg: Config) -> OscillationParams | None:
+    """The oscillation parameters of a configuration (None when oscillations are off)."""
+    oc = cfg.oscillation
+    if not oc.enabled:
+        return None
+    base = PRESETS[oc.preset]
+    over = {k: getattr(oc, k) for k in ("sin2_theta12", "sin2_theta13", "sin2_theta23",
+                                        "delta_cp_deg", "dm2_21", "dm2_31")
+            if getattr(oc, k) is not None}
+    if not over:
+        return base
+    vals = {k: getattr(base, k) for k in ("sin2_theta12", "sin2_theta13", "sin2_theta23",
+                                          "delta_cp_deg", "dm2_21", "dm2_31")}
+    vals.update(over)
+    return OscillationParams(**vals)
+
+
+def build_plan(cfg: Config) -> RunPlan:
+    """Validate data files and precompute every table of a run.
+
+    All user-input problems (data files, inconsistent choices) surface here as
+    :class:`~generator.errors.InputError`, before any output is opened.
+    """
+    det = cfg.detector
+    medium = get_medium(det.medium)
+    fid = make_fiducial(det.fiducial_shape, det.fiducial_radius_m, det.fiducial_half_height_m)
+    n_e = medium.electrons_in(fid.volume_cm3)
+    exposure = Exposure(_intervals(cfg), det.latitude_deg, det.longitude_deg)
+
+    ic = cfg.interaction
+    xs = XsecModel(corrections=ic.corrections, magnetic_moment=ic.magnetic_moment,
+                   nsi_eps_l=ic.nsi_eps_l, nsi_eps_r=ic.nsi_eps_r)
+    params = oscillation_params(cfg)
+    pdgs = (12, 14, 16) if params is not None else (12,)
+
+    # --- sources: spectra and fluxes
+    sc = cfg.sources
+    scale = dict(sc.scale)
+    override = dict(sc.flux_override)
+    entries: list[tuple[str, int, str, float, Any]] = []
+    for name in sc.include:
+        variant = sc.b8_shape if name == "8B" else "nominal"
+        phi = override.get(name, spectra.flux(name, sc.flux_model)) * scale.get(name, 1.0)
+        entries.append((name, spectra.SOURCE_CODES[name], name, phi,
+                        spectra.get_spectrum(name, variant)))
+    next_code = max(spectra.SOURCE_CODES.values()) + 1
+    for i, c in enumerate(sc.custom):
+        spec = spectra.load_custom_spectrum(c.spectrum_file, c.name)
+        phi = override.get(c.name, c.flux) * scale.get(c.name, 1.0)
+        entries.append((c.name, next_code + i, c.production_region, phi, spec))
+
+    e_max = max(max(e[4].e_max for e in entries), 1.0) * 1.001
+    lines = sorted({ln[0] for e in entries for ln in e[4].lines})
+    recoil = RecoilSampler(xs, pdgs=pdgs, e_min=0.05, e_max=max(e_max, 1.0),
+                           t_min=ic.threshold_mev, lines=tuple(lines))
+    flavour = FlavourModel(params, sorted({e[2] for e in entries}),
+                           latitude_deg=det.latitude_deg, depth_m=det.depth_m,
+                           e_min=0.05, e_max=max(e_max, 1.0),
+                           earth=cfg.oscillation.earth_matter,
+                           solar_profile=cfg.oscillation.solar_profile)
+
+    edges = np.linspace(-1.0, 1.0, N_ZENITH_BINS + 1)
+    wz = exposure.zenith_exposure(edges)            # s, ∫ dt (1 AU/r)² per cos-zenith bin
+    centres = 0.5 * (edges[:-1] + edges[1:])
+    w_total = float(wz.sum())
+
+    plans: list[SourcePlan] = []
+    for name, code, region, phi, spec in entries:
+        plans.append(_plan_source(name, code, region, phi, spec, recoil, flavour, pdgs,
+                                  centres, wz, w_total, n_e))
+    expected = np.array([p.expected_events for p in plans])
+    total = float(expected.sum())
+    if not total > 0.0:
+        raise ConfigError(
+            "interaction.threshold_mev: no source can produce a recoil above "
+            f"{ic.threshold_mev} MeV; lower the threshold or include other sources"
+        )
+    cdf = np.cumsum(expected) / total
+    cdf[-1] = 1.0
+    return RunPlan(cfg, medium, fid, n_e, exposure, xs, recoil, flavour, pdgs, plans, total,
+                   cdf, edges, wz)
+
+
+def _sigma_matrix(recoil: RecoilSampler, energy: np.ndarray, pdgs: tuple[int, ...]
+                  ) -> np.ndarray:
+    """σ_α(E) above threshold, shape (n, 3) in the e, μ, τ column order (cm²)."""
+    out = np.zeros((energy.size, 3))
+    for j, pdg in enumerate(pdgs):
+        out[:, j] = recoil.sigma(energy, np.full(energy.size, pdg))
+    return out
+
+
+def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, wz, w_total,
+                 n_e) -> SourcePlan:
+    from .spectra import InverseCDFSampler
+
+    e_grid, pdf = spec.grid()
+    sig = _sigma_matrix(recoil, e_grid, pdgs)
+    sig_max = sig.max(axis=1)
+    # exposure-averaged Σ_α P_α σ_α on the grid
+    avg = np.zeros(e_grid.size)
+    for c, w in zip(centres, wz, strict=True):
+        if w <= 0.0:
+            continue
+        p = flavour.probabilities(region, e_grid, np.full(e_grid.size, c))
+        avg += w * np.einsum("ij,ij->i", p, sig)
+    avg /= w_total
+    cont = np.trapezoid(pdf * avg, e_grid) if spec.continuous_fraction > 0 else 0.0
+    line_e = np.array([ln[0] for ln in spec.lines])
+    line_b = np.array([ln[1] for ln in spec.lines])
+    line_term = 0.0
+    line_w = np.zeros(0)
+    if line_e.size:
+        sig_l = _sigma_matrix(recoil, line_e, pdgs)
+        lavg = np.zeros(line_e.size)
+        for c, w in zip(centres, wz, strict=True):
+            if w <= 0.0:
+                continue
+            p = flavour.probabilities(region, line_e, np.full(line_e.size, c))
+            lavg += w * np.einsum("ij,ij->i", p, sig_l)
+        lavg /= w_total
+        line_term = float(np.sum(line_b * lavg))
+        line_w = line_b * sig_l.max(axis=1)
+    mean_sigma = float(cont + line_term)
+    expected = n_e * phi * w_total * mean_sigma
+    dens = pdf * sig_max if spec.continuous_fraction > 0 else np.zeros_like(pdf)
+    proposal = None
+    if expected > 0.0:
+        keep = line_w > 0
+        proposal = InverseCDFSampler(e_grid, dens, lines=tuple(line_e[keep]),
+                                     line_weights=tuple(line_w[keep]))
+    return SourcePlan(name, code, region, phi, spec, proposal, float(expected), mean_sigma,
+                      tuple(spec.lines))
+
+
+def chunk_seed(entropy: int, k: int) -> np.random.SeedSequence:
+    """The seed sequence of chunk ``k`` of a run with root ``entropy``."""
+    return np.random.SeedSequence(entropy, spawn_key=(k,))
+
+
+def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: float
+                   ) -> dict[str, np.ndarray]:
+    """Draw ``n`` truth-level events (a pure function of the plan and the random stream).
+
+    Returns
+    -------
+    dict of str to ndarray
+        One array per field of :data:`generator.io.schema.EVENT_FIELDS`.
+    """
+    out = empty_chunk(n)
+    src = np.searchsorted(plan.source_cdf, rng.random(n), side="right")
+    src = np.minimum(src, len(plan.sources) - 1)
+    energy = np.empty(n)
+    times = np.empty(n)
+    flav = np.empty(n, dtype=np.intp)
+    nu_dir = np.empty((n, 3))
+    cosz = np.empty(n)
+    pdg_arr = np.array(plan.pdgs)
+    for s, sp in enumerate(plan.sources):
+        pending = np.flatnonzero(src == s)
+        while pending.size:
+            m = pending.size
+            e = sp.proposal.sample(rng, m)
+            t = plan.exposure.sample_times(rng, m)
+            d, cz, _ = plan.exposure.sun(t)
+            p = plan.flavour.probabilities(sp.production_region, e, cz)
+            sig = _sigma_matrix(plan.recoil, e, plan.pdgs)
+            smax = sig.max(axis=1)
+            acc = np.cumsum(p * sig, axis=1) / np.where(smax > 0, smax, 1.0)[:, None]
+            v = rng.random(m)
+            choice = np.sum(v[:, None] >= acc, axis=1)
+            ok = choice < len(plan.pdgs)
+            idx = pending[ok]
+            energy[idx] = e[ok]
+            times[idx] = t[ok]
+            flav[idx] = choice[ok]
+            nu_dir[idx] = d[ok]
+            cosz[idx] = cz[ok]
+            pending = pending[~ok]
+    pdg = FLAVOUR_PDG[flav] if len(plan.pdgs) == 3 else np.full(n, pdg_arr[0], np.int16)
+    t_e = plan.recoil.sample(rng, energy, pdg)
+    e_dir, _, _ = kinematics.scatter(rng, energy, t_e, nu_dir)
+    out["time_utc"][:] = times
+    out["origin"][:] = np.array([sp.code for sp in plan.sources], dtype=np.int16)[src]
+    out["nu_pdg"][:] = pdg
+    out["nu_energy"][:] = energy
+    out["nu_dir"][:] = nu_dir
+    out["e_kinetic"][:] = t_e
+    out["e_dir"][:] = e_dir
+    out["vertex"][:] = plan.fiducial.sample(rng, n)
+    out["cos_sun"][:] = np.einsum("ij,ij->i", e_dir, nu_dir)
+    out["sun_cos_zenith"][:] = cosz
+    out["is_night"][:] = cosz < 0.0
+    out["weight"][:] = weight
+    return out
+
+
+@dataclass
+class RunSummary:
+    """What a run produced."""
+
+    path: Path | None
+    n_events: int
+    expected_events: float
+    seed_entropy: int
+    chunk_size: int
+    n_chunks: int
+    plan: RunPlan = field(repr=False)
+
+
+def _event_count(plan: RunPlan, entropy: int, n_events: int | None) -> int:
+    rc = plan.config.run
+    if n_events is not None:
+        return n_events
+    if rc.count_mode == "fixed":
+        return rc.events
+    if rc.count_mode == "expected":
+        return int(round(plan.expected_total))
+    rng = np.random.default_rng(np.random.SeedSequence(entropy, spawn_key=COUNT_SPAWN_KEY))
+    return int(rng.poisson(plan.expected_total))
+
+
+def provenance(plan: RunPlan, entropy: int, n: int) -> dict[str, Any]:
+    """Root attributes of an event file."""
+    cfg = plan.config
+    return {
+        "tool": "sunrecoil",
+        "tool_version": __version__,
+        "layout_version": LAYOUT_VERSION,
+        "config_toml": to_toml(cfg),
+        "config_source": cfg.source_file or "embedded default",
+        "seed_entropy": str(entropy),
+        "seed_scheme": "chunk k draws from numpy SeedSequence(seed_entropy, spawn_key=(k,)); "
+                       "Poisson count from spawn_key=(2**31,)",
+        "chunk_size": cfg.run.chunk_size,
+        "created_utc": _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
+        "n_events": n,
+        "count_mode": cfg.run.count_mode,
+        "expected_events": plan.expected_total,
+        "weight_per_event": plan.expected_total / n if n else 0.0,
+        "expected_events_per_live_day": plan.expected_rate_per_day,
+        "live_seconds": plan.exposure.live_seconds,
+        "mean_inverse_r2": plan.exposure.mean_inverse_r2,
+        "target_electrons": plan.n_electrons,
+        "fiducial_mass_kg": plan.fiducial.volume_cm3 * plan.medium.density_g_cm3 / 1000.0,
+        "threshold_mev": cfg.interaction.threshold_mev,
+        "frame": FRAME_CONVENTION,
+        "units_convention": "MeV, mm, ns inside events; UTC seconds since the Unix epoch for "
+                            "times; cm^2 and cm^-2 s^-1 for cross sections and fluxes",
+        "stages_present": "sources, cross sections, ephemeris, solar MSW, Earth regeneration",
+        "stages_absent": "; ".join(ABSENT_STAGES),
+        "constants": CODATA_EDITION_NOTE,
+    }
+
+
+def _write_tables(sink: Any, plan: RunPlan) -> None:
+    names = np.array([sp.name for sp in plan.sources], dtype="S16")
+    sink.write_table("sources/name", names, "", "source names (trade names)")
+    sink.write_table("sources/code", np.array([sp.code for sp in plan.sources], np.int16), "",
+                     "origin code of each source")
+    sink.write_table("sources/flux", np.array([sp.flux for sp in plan.sources]), "cm^-2 s^-1",
+                     "flux at 1 AU after scaling and overrides")
+    sink.write_table("sources/expected_events",
+                     np.array([sp.expected_events for sp in plan.sources]), "events",
+                     "expected events above threshold for the configured exposure")
+    sink.write_table("sources/mean_sigma", np.array([sp.mean_sigma for sp in plan.sources]),
+                     "cm^2", "exposure-, spectrum- and flavour-averaged cross section above "
+                     "threshold per incident neutrino")
+    sink.write_table("exposure/intervals", plan.exposure.intervals, "s",
+                     "live periods [start, stop], UTC seconds since the Unix epoch")
+    sink.write_table("exposure/zenith_edges", plan.zenith_edges, "", "cos-zenith bin edges")
+    sink.write_table("exposure/zenith_weights", plan.zenith_weights, "s",
+                     "live time weighted by (1 AU/r)^2 per cos-zenith bin")
+    for region in sorted({sp.production_region for sp in plan.sources}):
+        e, p = plan.flavour.day_table(region)
+        sink.write_table(f"flavour/day/{region}/energy", e, "MeV", "neutrino energy grid")
+        sink.write_table(f"flavour/day/{region}/probability", p, "",
+                         "daytime P(nu_e -> nu_e, nu_mu, nu_tau) at the detector")
+    night = plan.flavour.night_table()
+    if night:
+        sink.write_table("flavour/night/energy", night["energy"], "MeV", "energy grid")
+        sink.write_table("flavour/night/cos_zenith", night["cos_zenith"], "",
+                         "cos-zenith grid (night half)")
+        sink.write_table("flavour/night/p_earth", night["p_earth"], "",
+                         "P(nu_i -> nu_alpha) through the Earth, axes (E, cos_zenith, i, alpha)")
+    sink.set_attrs({k: (str(v) if not isinstance(v, int | float | str | bool) else v)
+                    for k, v in plan.flavour.describe().items()}, group="flavour")
+
+
+def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None = None,
+             seed: int | None = None, force: bool = False, sink: Any | None = None,
+             progress: Callable[[int], None] | None = None) -> RunSummary:
+    """Generate events for a configuration and write them to an HDF5 file (or a given sink).
+
+    Parameters
+    ----------
+    cfg : Config
+        Validated configuration.
+    out : str or Path, optional
+        Output path (default ``cfg.output.path``). Ignored when ``sink`` is given.
+    n_events : int, optional
+        Number of events; overrides ``run.events`` and ``run.count_mode``.
+    seed : int, optional
+        Root seed; overrides ``run.seed``. When neither is given a random seed is drawn from
+        the operating system and recorded in the file.
+    force : bool
+        Overwrite an existing output file.
+    sink : object, optional
+        An event sink (e.g. :class:`~generator.io.writer.MemorySink`).
+    progress : callable, optional
+        Called with the number of events of each finished chunk.
+
+    Raises
+    ------
+    InputError
+        Before any file is created, for bad configuration or data files.
+    """
+    if seed is None:
+        seed = cfg.run.seed
+    entropy = int(seed) if seed is not None else secrets.randbits(128)
+    path = Path(out if out is not None else cfg.output.path)
+    if sink is None:
+        from .io.writer import check_output_path
+
+        check_output_path(path, force)        # fail early, before the expensive tables
+    plan = build_plan(cfg)
+    n_total = _event_count(plan, entropy, n_events)
+    chunk = cfg.run.chunk_size
+    n_chunks = -(-n_total // chunk)
+    weight = plan.expected_total / n_total if n_total else 0.0
+    own_sink = sink is None
+    if own_sink:
+        sink = HDF5Sink(path, EVENT_FIELDS, compression=cfg.output.compression,
+                        compression_level=cfg.output.compression_level,
+                        chunk_rows=min(chunk, 1 << 16), force=force)
+    try:
+        for k in range(n_chunks):
+            m = min(chunk, n_total - k * chunk)
+            rng = np.random.default_rng(chunk_seed(entropy, k))
+            sink.write_chunk(generate_chunk(plan, rng, m, weight))
+            if progress is not None:
+                progress(m)
+        codes = [sp.code for sp in plan.sources]
+        sink.set_field_attrs("origin", {"codes": np.array(codes, np.int16),
+                                        "names": np.array([sp.name for sp in plan.sources],
+                                                          dtype="S16")})
+        _write_tables(sink, plan)
+        sink.set_attrs(provenance(plan, entropy, n_total))
+        result = sink.commit()
+    except BaseException:
+        sink.abort()
+        raise
+    return RunSummary(result if own_sink else None, n_total, plan.expected_total, entropy,
+                      chunk, n_chunks, plan)
+
+
+def memory_run(cfg: Config, n_events: int, seed: int) -> tuple[MemorySink, RunSummary]:
+    """Run into an in-memory sink (tests, notebooks)."""
+    sink = MemorySink(EVENT_FIELDS)
+    summary = generate(cfg, n_events=n_events, seed=seed, sink=sink)
+    return sink, summary
