@@ -1,0 +1,192 @@
+"""Exact two-body kinematics of ν + e⁻ → ν + e⁻ on a free electron at rest.
+
+All energies in MeV, directions as unit 3-vectors, 4-momenta as ``[E, px, py, pz]`` in MeV.
+The relations are textbook relativistic two-body kinematics (energy–momentum conservation
+with a massless neutrino and a target electron at rest), e.g. PDG Review of Particle Physics,
+"Kinematics" chapter (two-body scattering); see also J. N. Bahcall, *Neutrino Astrophysics*
+(Cambridge University Press, 1989), ch. 8, for the recoil-angle formula.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numpy.typing import ArrayLike
+
+from generator.constants import ELECTRON_MASS
+from generator.errors import ConfigError
+
+__all__ = [
+    "t_max",
+    "e_min_for_recoil",
+    "cos_theta_electron",
+    "orthonormal_basis",
+    "scatter",
+]
+
+#: Relative tolerance used to accept recoil energies marginally above T_max (rounding).
+_T_TOLERANCE = 1e-12
+
+
+def t_max(energy: ArrayLike) -> np.ndarray:
+    """Largest electron recoil kinetic energy.
+
+    T_max = 2E² / (m + 2E) (two-body kinematics, electron at rest).
+
+    Parameters
+    ----------
+    energy : array_like
+        Neutrino energy E in MeV, any shape, E ≥ 0.
+
+    Returns
+    -------
+    numpy.ndarray
+        T_max in MeV, same shape as ``energy``.
+    """
+    e = np.asarray(energy, dtype=np.float64)
+    return 2.0 * e * e / (ELECTRON_MASS + 2.0 * e)
+
+
+def e_min_for_recoil(t: ArrayLike) -> np.ndarray:
+    """Smallest neutrino energy able to produce recoil kinetic energy ``t``.
+
+    E_min(T) = [T + √(T² + 2mT)] / 2, the inverse of :func:`t_max`.
+
+    Parameters
+    ----------
+    t : array_like
+        Electron kinetic energy T in MeV, T ≥ 0.
+
+    Returns
+    -------
+    numpy.ndarray
+        E_min in MeV, same shape as ``t``.
+    """
+    tt = np.asarray(t, dtype=np.float64)
+    return 0.5 * (tt + np.sqrt(tt * tt + 2.0 * ELECTRON_MASS * tt))
+
+
+def cos_theta_electron(energy: ArrayLike, t: ArrayLike) -> np.ndarray:
+    """Cosine of the recoil-electron angle to the incoming neutrino direction.
+
+    cos θ = [(E + m)/E] · √(T/(T + 2m))  (Bahcall 1989, ch. 8; follows from
+    energy–momentum conservation). Equal to 1 at T = T_max; clipped to [0, 1] against
+    rounding.
+
+    Parameters
+    ----------
+    energy : array_like
+        Neutrino energy E in MeV (> 0).
+    t : array_like
+        Electron kinetic energy T in MeV, 0 ≤ T ≤ T_max(E); broadcast against ``energy``.
+
+    Returns
+    -------
+    numpy.ndarray
+        cos θ, broadcast shape of the inputs.
+    """
+    e = np.asarray(energy, dtype=np.float64)
+    tt = np.asarray(t, dtype=np.float64)
+    c = (e + ELECTRON_MASS) / e * np.sqrt(tt / (tt + 2.0 * ELECTRON_MASS))
+    return np.clip(c, 0.0, 1.0)
+
+
+def orthonormal_basis(n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Two unit vectors completing the unit vectors ``n`` to right-handed orthonormal bases.
+
+    Branch-free construction of T. Duff et al., "Building an Orthonormal Basis, Revisited",
+    J. Computer Graphics Techniques 6 (1), 1 (2017); vectorised over rows.
+
+    Parameters
+    ----------
+    n : numpy.ndarray
+        Unit vectors, shape (k, 3).
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(u, v)``, each shape (k, 3), with (u, v, n) right-handed and orthonormal.
+    """
+    nx, ny, nz = n[:, 0], n[:, 1], n[:, 2]
+    sign = np.where(nz >= 0.0, 1.0, -1.0)
+    a = -1.0 / (sign + nz)
+    b = nx * ny * a
+    u = np.stack([1.0 + sign * nx * nx * a, sign * b, -sign * nx], axis=1)
+    v = np.stack([b, sign + ny * ny * a, -ny], axis=1)
+    return u, v
+
+
+def scatter(
+    rng: np.random.Generator, energy: ArrayLike, t: ArrayLike, nu_dir: ArrayLike
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Build the final state of ν e⁻ → ν e⁻ for given neutrino energies and recoil energies.
+
+    The electron polar angle follows from :func:`cos_theta_electron`; its azimuth around the
+    neutrino direction is uniform in [0, 2π), drawn with exactly one ``rng.random(n)`` call.
+    The outgoing neutrino takes E' = E − T and momentum E·n̂ − p⃗_e, so energy and momentum
+    are conserved by construction (to rounding).
+
+    Parameters
+    ----------
+    rng : numpy.random.Generator
+        Source of randomness (one ``random(n)`` call).
+    energy : array_like
+        Neutrino energies E in MeV, shape (n,).
+    t : array_like
+        Electron kinetic energies T in MeV, shape (n,), 0 ≤ T ≤ T_max(E).
+    nu_dir : array_like
+        Unit direction-of-travel vectors of the incoming neutrinos, shape (n, 3).
+
+    Returns
+    -------
+    electron_dir : numpy.ndarray
+        Unit vectors of the electron momenta, shape (n, 3).
+    nu_out : numpy.ndarray
+        Outgoing-neutrino 4-momenta [E', px, py, pz] in MeV, shape (n, 4).
+    electron : numpy.ndarray
+        Electron 4-momenta [T + m, px, py, pz] in MeV, shape (n, 4).
+
+    Raises
+    ------
+    ConfigError
+        If shapes disagree, energies are not positive and finite, T is outside [0, T_max(E)],
+        or ``nu_dir`` rows are not unit vectors (|n| − 1 > 1e-6).
+    """
+    e = np.asarray(energy, dtype=np.float64).reshape(-1)
+    tt = np.asarray(t, dtype=np.float64).reshape(-1)
+    n = np.asarray(nu_dir, dtype=np.float64)
+    k = e.size
+    if tt.size != k or n.shape != (k, 3):
+        raise ConfigError(
+            f"scatter: energy {e.shape}, t {tt.shape} and nu_dir {n.shape} must have shapes "
+            "(n,), (n,) and (n, 3)"
+        )
+    if not np.all(np.isfinite(e) & (e > 0.0)):
+        raise ConfigError("scatter: parameter 'energy' must be finite and > 0 MeV")
+    tm = t_max(e)
+    if not np.all(np.isfinite(tt) & (tt >= 0.0) & (tt <= tm * (1.0 + _T_TOLERANCE))):
+        raise ConfigError("scatter: parameter 't' must satisfy 0 <= t <= t_max(energy) (MeV)")
+    norm = np.sqrt(np.einsum("ij,ij->i", n, n))
+    if not np.all(np.abs(norm - 1.0) < 1e-6):
+        raise ConfigError("scatter: parameter 'nu_dir' must hold unit vectors (|n| = 1 +- 1e-6)")
+    n = n / norm[:, None]
+    tt = np.minimum(tt, tm)
+
+    m = ELECTRON_MASS
+    p_e = np.sqrt(tt * (tt + 2.0 * m))
+    cos_t = cos_theta_electron(e, tt)
+    sin_t = np.sqrt(np.maximum(0.0, 1.0 - cos_t * cos_t))
+    phi = 2.0 * np.pi * rng.random(k)
+    u, v = orthonormal_basis(n)
+    electron_dir = (
+        cos_t[:, None] * n
+        + (sin_t * np.cos(phi))[:, None] * u
+        + (sin_t * np.sin(phi))[:, None] * v
+    )
+    p_vec = p_e[:, None] * electron_dir
+    electron = np.empty((k, 4))
+    electron[:, 0] = tt + m
+    electron[:, 1:] = p_vec
+    nu_out = np.empty((k, 4))
+    nu_out[:, 0] = e - tt
+    nu_out[:, 1:] = e[:, None] * n - p_vec
+    return electron_dir, nu_out, electron
