@@ -79,7 +79,8 @@ class ExposureConfig:
 @dataclass(frozen=True)
 class CustomSourceConfig:
     """A user-defined source: spectrum table file, flux at 1 AU (cm⁻² s⁻¹) and the standard
-    source whose solar production region it shares (for the MSW average)."""
+    source whose solar production region it shares (for the MSW average).
+    """
 
     name: str
     spectrum_file: str
@@ -309,9 +310,9 @@ def _parse_exposure(t: Any, base_dir: Path | None) -> ExposureConfig:
                 "the time range must be increasing"
             )
     else:
-        from .exposure import MAX_UNIX
+        from .exposure import MAX_UTC
 
-        if t0 + live * 86400.0 > MAX_UNIX:
+        if t0 + live * 86400.0 > MAX_UTC:
             raise ConfigError(
                 f"exposure.live_days: {live} days from {start!r} runs past 2200-01-01"
             )

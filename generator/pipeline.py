@@ -223,6 +223,12 @@ def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, 
     from .spectra import InverseCDFSampler
 
     e_grid, pdf = spec.grid()
+    # below E_min(T_th) no recoil passes the threshold: start the grid exactly there
+    e_lo = float(kinematics.e_min_for_recoil(recoil.t_min))
+    keep = e_grid > e_lo
+    if spec.continuous_fraction > 0 and keep.any() and e_lo > e_grid[0]:
+        e_grid = np.concatenate([[e_lo], e_grid[keep]])
+        pdf = np.concatenate([spec.pdf(np.array([e_lo])), pdf[keep]])
     sig = _sigma_matrix(recoil, e_grid, pdgs)
     sig_max = sig.max(axis=1)
     # exposure-averaged Σ_α P_α σ_α on the grid
