@@ -134,9 +134,11 @@ def test_sigkill_mid_write_leaves_no_final_file(tmp_path: Path):
     """A run killed with SIGKILL while writing leaves nothing under the final name."""
     (tmp_path / "c.toml").write_text("[run]\nchunk_size = 20000\n")
     out = tmp_path / "big.h5"
-    proc = subprocess.Popen([sys.executable, "-m", "generator", "generate", "c.toml", "-o",
-                             str(out), "--events", "50000000", "--seed", "3", "--quiet"],
-                            cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    err = tmp_path / "stderr.txt"
+    with open(err, "wb") as err_file:
+        proc = subprocess.Popen([sys.executable, "-m", "generator", "generate", "c.toml", "-o",
+                                 str(out), "--events", "50000000", "--seed", "3", "--quiet"],
+                                cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=err_file)
     try:
         import time
 
@@ -146,7 +148,7 @@ def test_sigkill_mid_write_leaves_no_final_file(tmp_path: Path):
             if tmps and tmps[0].stat().st_size > 200_000:
                 break
             if proc.poll() is not None:
-                pytest.fail(f"generator ended early: {proc.stderr.read().decode()}")
+                pytest.fail(f"generator ended early: {err.read_text()}")
             time.sleep(0.05)
         else:
             pytest.fail("temporary file never grew")
