@@ -78,8 +78,10 @@ class ExposureConfig:
 
 @dataclass(frozen=True)
 class CustomSourceConfig:
-    """A user-defined source: spectrum table file, flux at 1 AU (cm⁻² s⁻¹) and the standard
-    source whose solar production region it shares (for the MSW average).
+    """A user-defined source.
+
+    Spectrum table file, flux at 1 AU (cm⁻² s⁻¹) and the standard source whose solar
+    production region it shares (used for the MSW average).
     """
 
     name: str
@@ -403,14 +405,17 @@ def _parse_oscillation(t: Any) -> OscillationConfig:
     from .oscillation import PRESETS
 
     if preset not in PRESETS:
-        raise ConfigError(f"oscillation.preset: unknown preset {preset!r}; allowed: {list(PRESETS)}")
+        raise ConfigError(
+            f"oscillation.preset: unknown preset {preset!r}; allowed: {list(PRESETS)}"
+        )
     return OscillationConfig(enabled, preset, earth, profile, **vals)
 
 
 def _triple(v: Any, path: str) -> tuple[float, float, float]:
     if not isinstance(v, list) or len(v) != 3:
         raise ConfigError(f"{path}: expected a list of three numbers [ee, μμ, ττ], got {_fmt(v)}")
-    return tuple(_check_number(f"{path}[{i}]", x, -10.0, 10.0) for i, x in enumerate(v))  # type: ignore[return-value]
+    a, b, c = (_check_number(f"{path}[{i}]", x, -10.0, 10.0) for i, x in enumerate(v))
+    return (a, b, c)
 
 
 def _parse_interaction(t: Any) -> InteractionConfig:

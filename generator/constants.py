@@ -79,7 +79,9 @@ SECONDS_PER_JULIAN_YEAR: float = 365.25 * 86400.0
 
 #: √2 G_F N_A in eV per (N_A cm⁻³) of electron density: V_CC = √2 G_F n_e
 #: (Wolfenstein, Phys. Rev. D 17, 2369 (1978)); ≈ 7.63 × 10⁻¹⁴ eV.
-MATTER_POTENTIAL_EV_PER_NA: float = math.sqrt(2.0) * FERMI_CONSTANT * AVOGADRO * HBARC_MEV_CM**3 * 1e6
+MATTER_POTENTIAL_EV_PER_NA: float = (
+    math.sqrt(2.0) * FERMI_CONSTANT * AVOGADRO * HBARC_MEV_CM**3 * 1e6
+)
 
 #: Human-readable note of where the CODATA values came from (stored in event files).
 CODATA_EDITION_NOTE: str = f"scipy.constants of scipy {_scipy.__version__}"

@@ -62,10 +62,9 @@ def summarise(path: Path, chunk: int = 1 << 20) -> str:
         if n:
             lines.append(f"night fraction: {night / n:.4f}")
             lines.append("ranges:")
-            lines.append(f"  nu_energy  {ranges['nu_energy'][0]:.4f} – {ranges['nu_energy'][1]:.4f} "
-                         f"{ev.units('nu_energy')}")
-            lines.append(f"  e_kinetic  {ranges['e_kinetic'][0]:.4f} – {ranges['e_kinetic'][1]:.4f} "
-                         f"{ev.units('e_kinetic')}")
+            for k in ("nu_energy", "e_kinetic"):
+                lines.append(f"  {k:<10s} {ranges[k][0]:.4f} – {ranges[k][1]:.4f} "
+                             f"{ev.units(k)}")
             lines.append(f"  time_utc   {_utc(ranges['time_utc'][0])} – "
                          f"{_utc(ranges['time_utc'][1])}")
         intervals = ev.table("exposure/intervals")

@@ -11,6 +11,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import make_config
 from scipy import stats
 
 from generator import kinematics
@@ -18,8 +19,6 @@ from generator.io import read_events
 from generator.io.schema import EVENT_FIELDS
 from generator.io.writer import MemorySink
 from generator.pipeline import build_plan, chunk_seed, generate, generate_chunk, memory_run
-
-from conftest import make_config
 
 
 @pytest.fixture(scope="module")
