@@ -1,0 +1,484 @@
+"""Flavour conversion of solar neutrinos: MSW in the Sun, vacuum to the Earth, Earth at night.
+
+Physics model
+-------------
+* Sun: three-flavour adiabatic MSW (level-crossing probability P_c = 0; non-adiabatic
+  corrections for LMA are 10⁻⁹–10⁻⁷, de Holanda, Liao & Smirnov, Nucl. Phys. B 702, 307
+  (2004)).  ν₃ decouples and the 1–2 sector sees c₁₃² V_CC (Kuo & Pantaleone, Rev. Mod. Phys.
+  61, 937 (1989)).  Mass-state fractions at the surface (Parke, Phys. Rev. Lett. 57, 1275
+  (1986) with P_c = 0): P_e1 = c₁₃² cos²θ₁₂ᵐ, P_e2 = c₁₃² sin²θ₁₂ᵐ, P_e3 = s₁₃², with θ₁₂ᵐ at
+  the production point, averaged over the source's production region
+  (:mod:`generator.solar_model`).
+* Sun → Earth: incoherent mixture of mass states (phases averaged), so at day
+  P(ν_e→ν_α) = Σ_i P_ei |U_αi|².
+* Night: P(ν_e→ν_α) = Σ_i P_ei P^⊕_{iα}(E, cos θ_z) with the Earth table of
+  :mod:`generator.earth` (built once per parameter set and cached on disk).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+from collections.abc import Sequence
+from dataclasses import asdict, dataclass
+from pathlib import Path
+
+import numpy as np
+
+from generator import earth, solar_model
+from generator.constants import MATTER_POTENTIAL_EV_PER_NA
+from generator.errors import ConfigError
+
+__all__ = [
+    "OscillationParams",
+    "PRESETS",
+    "get_preset",
+    "pmns_matrix",
+    "cos2_theta12_matter",
+    "sun_mass_fractions",
+    "vacuum_flavour_probs",
+    "FlavourModel",
+]
+
+_TABLE_VERSION = "earth-table-v1"
+_CHUNK = 1 << 15  # events per block in probabilities() (keeps temporaries in cache)
+
+
+@dataclass(frozen=True)
+class OscillationParams:
+    """Three-flavour oscillation parameters (PDG parametrisation).
+
+    Attributes
+    ----------
+    sin2_theta12, sin2_theta13, sin2_theta23 : float
+        sin² of the mixing angles, in [0, 1].
+    delta_cp_deg : float
+        Dirac CP phase in degrees.
+    dm2_21 : float
+        m₂² − m₁² in eV² (> 0).
+    dm2_31 : float
+        m₃² − m₁² in eV²; negative means inverted ordering.
+    """
+
+    sin2_theta12: float
+    sin2_theta13: float
+    sin2_theta23: float
+    delta_cp_deg: float
+    dm2_21: float
+    dm2_31: float
+
+    def __post_init__(self) -> None:
+        for name in ("sin2_theta12", "sin2_theta13", "sin2_theta23"):
+            v = getattr(self, name)
+            if not (isinstance(v, int | float) and math.isfinite(v) and 0.0 <= v <= 1.0):
+                raise ConfigError(f"oscillation.{name}: {v!r} is not allowed; need 0 <= value <= 1")
+        if not (isinstance(self.delta_cp_deg, int | float) and math.isfinite(self.delta_cp_deg)):
+            raise ConfigError(
+                f"oscillation.delta_cp_deg: {self.delta_cp_deg!r}; need a finite number"
+            )
+        d21, d31 = self.dm2_21, self.dm2_31
+        if not (isinstance(d21, int | float) and math.isfinite(d21) and d21 > 0):
+            raise ConfigError(f"oscillation.dm2_21: {d21!r}; need a finite value > 0 eV²")
+        if not (isinstance(d31, int | float) and math.isfinite(d31) and d31 != 0):
+            raise ConfigError(f"oscillation.dm2_31: {d31!r}; need a finite non-zero value (eV²)")
+
+
+#: Parameter presets.
+#: "nufit-6.0": NuFIT 6.0, normal ordering without SK atmospheric data (Esteban et al.,
+#: JHEP 12 (2024) 216, arXiv:2410.05380) — best-fit numbers from memory (the table on
+#: nu-fit.org is an image and was not read).
+#: "pdg-2024": pdgLive summary values (sin²θ₁₂ 0.307, Δm²₂₁ 7.53e-5 eV², sin²θ₁₃ 0.0219,
+#: sin²θ₂₃ 0.547 NO, Δm²₃₂ 2.437e-3 eV² NO so Δm²₃₁ = Δm²₃₂ + Δm²₂₁, δ = 1.36π); read from the
+#: listings, edition not confirmed to be exactly 2024.
+PRESETS: dict[str, OscillationParams] = {
+    "nufit-6.0": OscillationParams(0.307, 0.02195, 0.561, 177.0, 7.49e-5, 2.534e-3),
+    "pdg-2024": OscillationParams(0.307, 0.0219, 0.547, 1.36 * 180.0, 7.53e-5, 2.437e-3 + 7.53e-5),
+}
+
+
+def get_preset(name: str) -> OscillationParams:
+    """Return a preset by name; raises :class:`ConfigError` naming the allowed presets."""
+    try:
+        return PRESETS[name]
+    except KeyError:
+        raise ConfigError(
+            f"oscillation.preset: unknown value {name!r}; allowed: {sorted(PRESETS)}"
+        ) from None
+
+
+def pmns_matrix(p: OscillationParams) -> np.ndarray:
+    """PMNS matrix U = R₂₃ U₁₃(δ) R₁₂ (PDG convention, Review of Particle Physics).
+
+    Parameters
+    ----------
+    p : OscillationParams
+        Mixing parameters.
+
+    Returns
+    -------
+    ndarray, shape (3, 3), complex
+        U[α, i] with rows (e, μ, τ) and columns (1, 2, 3).
+    """
+    s12, c12 = math.sqrt(p.sin2_theta12), math.sqrt(1 - p.sin2_theta12)
+    s13, c13 = math.sqrt(p.sin2_theta13), math.sqrt(1 - p.sin2_theta13)
+    s23, c23 = math.sqrt(p.sin2_theta23), math.sqrt(1 - p.sin2_theta23)
+    ph = np.exp(1j * math.radians(p.delta_cp_deg))
+    r23 = np.array([[1, 0, 0], [0, c23, s23], [0, -s23, c23]], dtype=complex)
+    u13 = np.array([[c13, 0, s13 / ph], [0, 1, 0], [-s13 * ph, 0, c13]], dtype=complex)
+    r12 = np.array([[c12, s12, 0], [-s12, c12, 0], [0, 0, 1]], dtype=complex)
+    return r23 @ u13 @ r12
+
+
+def cos2_theta12_matter(energy: np.ndarray, n_e: np.ndarray, p: OscillationParams) -> np.ndarray:
+    """Cos 2θ₁₂ᵐ in matter (3ν reduction with potential c₁₃² V_CC).
+
+    cos 2θᵐ = (cos 2θ − β)/sqrt((cos 2θ − β)² + sin² 2θ), β = 2 c₁₃² V_CC E/Δm²₂₁,
+    V_CC = √2 G_F n_e (Wolfenstein, Phys. Rev. D 17, 2369 (1978); Mikheyev & Smirnov 1985).
+
+    Parameters
+    ----------
+    energy : array_like
+        Neutrino energy in MeV.
+    n_e : array_like
+        Electron density in N_A cm⁻³ (broadcast against ``energy``).
+    p : OscillationParams
+        Mixing parameters.
+
+    Returns
+    -------
+    ndarray
+        cos 2θ₁₂ᵐ, broadcast shape.
+    """
+    beta = (
+        2.0
+        * (1.0 - p.sin2_theta13)
+        * MATTER_POTENTIAL_EV_PER_NA
+        * np.asarray(n_e)
+        * np.asarray(energy)
+        * 1e6
+        / p.dm2_21
+    )
+    c2 = 1.0 - 2.0 * p.sin2_theta12
+    s2sq = 1.0 - c2 * c2
+    return (c2 - beta) / np.sqrt((c2 - beta) ** 2 + s2sq)
+
+
+def sun_mass_fractions(
+    energy: np.ndarray, source: str, p: OscillationParams, profile: str = "ssm"
+) -> np.ndarray:
+    """Mass-state fractions (P_e1, P_e2, P_e3) leaving the Sun, production-region averaged.
+
+    Adiabatic (P_c = 0): P_e1 = c₁₃² (1 + cos 2θ₁₂ᵐ)/2, P_e2 = c₁₃² (1 − cos 2θ₁₂ᵐ)/2,
+    P_e3 = s₁₃² (Parke 1986; 3ν reduction of Kuo & Pantaleone 1989), averaged with the radial
+    production distribution of ``source``.
+
+    Parameters
+    ----------
+    energy : array_like, shape (n,)
+        Neutrino energies in MeV.
+    source : str
+        One of :data:`generator.solar_model.SOURCES`.
+    p : OscillationParams
+        Mixing parameters.
+    profile : {"ssm", "exponential"}
+        Solar electron-density profile.
+
+    Returns
+    -------
+    ndarray, shape (n, 3)
+        Rows sum to 1.
+    """
+    x, w = solar_model.production_quadrature(source)
+    ne = solar_model.electron_density(x, profile)
+    e = np.atleast_1d(np.asarray(energy, dtype=float))
+    out = np.empty((e.size, 3))
+    c13sq = 1.0 - p.sin2_theta13
+    for start in range(0, e.size, 256):
+        chunk = e[start : start + 256]
+        c2m = cos2_theta12_matter(chunk[:, None], ne[None, :], p) @ w
+        out[start : start + 256, 0] = c13sq * 0.5 * (1.0 + c2m)
+        out[start : start + 256, 1] = c13sq * 0.5 * (1.0 - c2m)
+    out[:, 2] = p.sin2_theta13
+    return out
+
+
+def vacuum_flavour_probs(mass_fractions: np.ndarray, p: OscillationParams) -> np.ndarray:
+    """Flavour probabilities without Earth matter: P_α = Σ_i P_ei |U_αi|².
+
+    Parameters
+    ----------
+    mass_fractions : ndarray, shape (n, 3)
+        (P_e1, P_e2, P_e3).
+    p : OscillationParams
+        Mixing parameters.
+
+    Returns
+    -------
+    ndarray, shape (n, 3)
+        P(ν_e → ν_e, ν_μ, ν_τ).
+    """
+    u2 = np.abs(pmns_matrix(p)) ** 2  # [α, i]
+    return np.asarray(mass_fractions, dtype=float) @ u2.T
+
+
+def _default_cache_dir() -> Path:
+    env = os.environ.get("SUNRECOIL_CACHE")
+    return Path(env) if env else Path.home() / ".cache" / "sunrecoil"
+
+
+class FlavourModel:
+    """Flavour probabilities at the detector for the configured sources (tables built once).
+
+    Parameters
+    ----------
+    params : OscillationParams or None
+        Mixing parameters; ``None`` switches oscillations off (every probability (1, 0, 0)).
+    sources : sequence of str
+        Sources to tabulate (see :data:`generator.solar_model.SOURCES`).
+    latitude_deg : float
+        Detector latitude in degrees (provenance; exposure helpers).
+    depth_m : float
+        Detector depth below the surface in m (night chords start there).
+    e_min, e_max : float
+        Energy range of the tables in MeV.
+    earth : bool
+        Apply Earth regeneration at night.
+    solar_profile : {"ssm", "exponential"}
+        Solar electron-density profile.
+    cache_dir : str, Path, or None
+        Directory of the night-table cache; ``None`` ⇒ ``$SUNRECOIL_CACHE`` or
+        ``~/.cache/sunrecoil``.
+    ocean_as_crust : bool
+        Replace PREM's ocean layer by crust under the detector (default, continental site).
+    energy_step : float
+        Table energy step in MeV.
+    n_cos_zenith : int
+        Number of night cos θ_z nodes on [−1, 0].
+    """
+
+    def __init__(
+        self,
+        params: OscillationParams | None,
+        sources: Sequence[str],
+        *,
+        latitude_deg: float,
+        depth_m: float,
+        e_min: float = 0.05,
+        e_max: float = 20.0,
+        earth: bool = True,
+        solar_profile: str = "ssm",
+        cache_dir: str | os.PathLike | None = None,
+        ocean_as_crust: bool = True,
+        energy_step: float = 0.1,
+        n_cos_zenith: int = 101,
+    ) -> None:
+        if params is not None and not isinstance(params, OscillationParams):
+            raise ConfigError(
+                f"oscillation.params: expected OscillationParams or None, got {params!r}"
+            )
+        if solar_profile not in solar_model.PROFILES:
+            raise ConfigError(
+                f"oscillation.solar_profile: unknown value {solar_profile!r}; "
+                f"allowed: {solar_model.PROFILES}"
+            )
+        for s in sources:
+            if s not in solar_model.SOURCES:
+                raise ConfigError(f"sources: unknown source {s!r}; allowed: {solar_model.SOURCES}")
+        if not (math.isfinite(latitude_deg) and -90.0 <= latitude_deg <= 90.0):
+            raise ConfigError(f"detector.latitude_deg: {latitude_deg!r} not in [-90, 90]")
+        if not (math.isfinite(depth_m) and 0.0 <= depth_m < 10_000.0):
+            raise ConfigError(f"detector.depth_m: {depth_m!r}; need 0 <= depth_m < 10000 m")
+        if not (math.isfinite(e_min) and math.isfinite(e_max) and 0.0 < e_min < e_max):
+            raise ConfigError(f"e_min/e_max: ({e_min!r}, {e_max!r}); need 0 < e_min < e_max (MeV)")
+        if not (energy_step > 0.0 and n_cos_zenith >= 3):
+            raise ConfigError("energy_step must be > 0 MeV and n_cos_zenith >= 3")
+        self.params = params
+        self.sources = tuple(dict.fromkeys(sources))
+        self.latitude_deg = float(latitude_deg)
+        self.depth_m = float(depth_m)
+        self.earth = bool(earth)
+        self.solar_profile = solar_profile
+        self.ocean_as_crust = bool(ocean_as_crust)
+        self.cache_dir = Path(cache_dir) if cache_dir is not None else _default_cache_dir()
+        n_e = int(math.ceil((e_max - e_min) / energy_step - 1e-9)) + 1
+        self._energy = np.linspace(e_min, e_max, n_e)
+        self._cosz = np.linspace(-1.0, 0.0, int(n_cos_zenith))
+        self._p_earth = self._build_night_table()
+        self._day: dict[str, np.ndarray] = {}
+        self._cells: dict[str, np.ndarray] = {}
+        for s in self.sources:
+            self._build_source(s)
+
+    # -- construction -----------------------------------------------------------------
+    def _cache_key(self) -> str:
+        payload = {
+            "version": _TABLE_VERSION,
+            "params": asdict(self.params),
+            "energy": [self._energy[0], self._energy[-1], len(self._energy)],
+            "cosz": len(self._cosz),
+            "depth_m": self.depth_m,
+            "ocean_as_crust": self.ocean_as_crust,
+            "y_e": [earth.Y_E_CORE, earth.Y_E_MANTLE],
+        }
+        return hashlib.sha256(json.dumps(payload, sort_keys=True).encode()).hexdigest()[:20]
+
+    def _build_night_table(self) -> np.ndarray:
+        n_e, n_z = len(self._energy), len(self._cosz)
+        if self.params is None:
+            return np.broadcast_to(np.eye(3), (n_e, n_z, 3, 3)).copy()
+        if not self.earth:
+            u2 = (np.abs(pmns_matrix(self.params)) ** 2).T  # [i, α]
+            return np.broadcast_to(u2, (n_e, n_z, 3, 3)).copy()
+        path = self.cache_dir / f"earth_{self._cache_key()}.npz"
+        if path.is_file():
+            try:
+                with np.load(path) as f:
+                    table = f["p_earth"]
+                if table.shape == (n_e, n_z, 3, 3):
+                    return table
+            except (OSError, ValueError, KeyError):
+                pass
+        table = earth.smoothed_transition_table(
+            self._energy, self._cosz, self.params, self.depth_m, ocean_as_crust=self.ocean_as_crust
+        )
+        try:
+            self.cache_dir.mkdir(parents=True, exist_ok=True)
+            tmp = path.with_suffix(f".{os.getpid()}.tmp.npz")
+            np.savez(tmp, p_earth=table)
+            os.replace(tmp, path)
+        except OSError:
+            pass  # caching is an optimisation only
+        return table
+
+    def _build_source(self, source: str) -> None:
+        n_z = len(self._cosz)
+        if self.params is None:
+            fr = np.tile([1.0, 0.0, 0.0], (len(self._energy), 1))
+            day = fr
+        else:
+            fr = sun_mass_fractions(self._energy, source, self.params, self.solar_profile)
+            day = vacuum_flavour_probs(fr, self.params)
+        night = np.einsum("ei,ezia->eza", fr, self._p_earth)
+        full = np.concatenate([night, day[:, None, :], day[:, None, :]], axis=1)
+        self._day[source] = day
+        t = full[:, :, :2]
+        cells = np.concatenate([t[:-1, :-1], t[:-1, 1:], t[1:, :-1], t[1:, 1:]], axis=-1)
+        self._cells[source] = np.ascontiguousarray(cells.reshape(-1, 8))
+        self._n_zc = n_z + 2
+
+    # -- queries ----------------------------------------------------------------------
+    def probabilities(self, source: str, energy: np.ndarray, cos_zenith: np.ndarray) -> np.ndarray:
+        """P(ν_e → ν_e, ν_μ, ν_τ) at the detector for each event.
+
+        Day (cos θ_z ≥ 0): linear interpolation of the day table in E; night: bilinear
+        interpolation of Σ_i P_ei(E) P^⊕_{iα}(E, cos θ_z) on the uniform (E, cos θ_z) grid.
+
+        Parameters
+        ----------
+        source : str
+            A source given at construction.
+        energy : array_like, shape (n,)
+            Neutrino energies in MeV, 0 ≤ E ≤ e_max; energies below e_min get the e_min
+            value (matter effects vanish ∝ E there, so the probabilities are already at
+            their vacuum-averaged limit).
+        cos_zenith : array_like, shape (n,)
+            Solar cos θ_z at the event time.
+
+        Returns
+        -------
+        ndarray, shape (n, 3)
+            Rows sum to 1 (to rounding).
+        """
+        if source not in self._cells:
+            raise ConfigError(f"source: {source!r} was not configured; available: {self.sources}")
+        e = np.asarray(energy, dtype=float).ravel()
+        c = np.asarray(cos_zenith, dtype=float).ravel()
+        if e.shape != c.shape:
+            raise ConfigError(f"energy and cos_zenith shapes differ: {e.shape} vs {c.shape}")
+        e0, e1 = self._energy[0], self._energy[-1]
+        if e.size and not (e.min() >= 0.0 and e.max() <= e1 + 1e-12):
+            raise ConfigError(f"energy: values outside [0, {e1}] MeV (table range [{e0}, {e1}])")
+        if e.size and not (np.all(np.abs(c) <= 1.0 + 1e-12)):
+            raise ConfigError("cos_zenith: values outside [-1, 1]")
+        n_e, n_zc = len(self._energy), self._n_zc
+        cell = self._cells[source]
+        scale_e = (n_e - 1) / (e1 - e0)
+        scale_z = float(n_zc - 3)
+        out = np.empty((e.size, 3))
+        for s in range(0, e.size, _CHUNK):
+            ee = e[s : s + _CHUNK]
+            cc = c[s : s + _CHUNK]
+            u = (ee - e0) * scale_e
+            np.maximum(u, 0.0, out=u)  # below e_min: the e_min value (β ∝ E, vacuum limit)
+            i = np.minimum(u.astype(np.int32), n_e - 2)
+            fe = u - i
+            v = (cc + 1.0) * scale_z  # night: 0 <= v < n_zc - 3
+            np.copyto(v, scale_z + 1.0, where=cc >= 0.0)  # day → duplicated day column
+            j = v.astype(np.int32)
+            fz = v - j
+            # corners (i,j), (i,j+1), (i+1,j), (i+1,j+1) × (e, μ)
+            g = np.take(cell, i * (n_zc - 1) + j, axis=0)
+            lo = g[:, 0:2] + fz[:, None] * (g[:, 2:4] - g[:, 0:2])
+            hi = g[:, 4:6] + fz[:, None] * (g[:, 6:8] - g[:, 4:6])
+            o = out[s : s + _CHUNK]
+            o[:, :2] = lo + fe[:, None] * (hi - lo)
+        out[:, 2] = 1.0 - out[:, 0] - out[:, 1]
+        return out
+
+    def day_table(self, source: str) -> tuple[np.ndarray, np.ndarray]:
+        """Day-time probabilities on the table grid.
+
+        Returns
+        -------
+        energy : ndarray, shape (n,)
+            MeV.
+        probs : ndarray, shape (n, 3)
+            P(ν_e → ν_e, ν_μ, ν_τ) without Earth matter.
+        """
+        if source not in self._day:
+            raise ConfigError(f"source: {source!r} was not configured; available: {self.sources}")
+        return self._energy.copy(), self._day[source].copy()
+
+    def night_table(self) -> dict[str, np.ndarray]:
+        """Earth transition table P^⊕_{iα}.
+
+        Returns
+        -------
+        dict
+            ``energy`` (nE,) MeV, ``cos_zenith`` (nZ,), ``p_earth`` (nE, nZ, 3, 3) indexed
+            [E, cos θ_z, i, α] (cell averages, see
+            :func:`generator.earth.smoothed_transition_table`).
+        """
+        return {
+            "energy": self._energy.copy(),
+            "cos_zenith": self._cosz.copy(),
+            "p_earth": self._p_earth.copy(),
+        }
+
+    def describe(self) -> dict:
+        """Parameters and modelling choices, for provenance."""
+        return {
+            "oscillation": None if self.params is None else asdict(self.params),
+            "sun": {
+                "treatment": "3nu adiabatic MSW (P_c = 0), c13^2 V reduction, production-averaged",
+                "electron_density_profile": self.solar_profile,
+            },
+            "earth": {
+                "enabled": self.earth,
+                "density_model": "PREM (Dziewonski & Anderson 1981)",
+                "y_e_core": earth.Y_E_CORE,
+                "y_e_mantle": earth.Y_E_MANTLE,
+                "ocean_layer": (
+                    "replaced by crust 2.6 g/cm3" if self.ocean_as_crust else "PREM water"
+                ),
+                "evolution": "reduced 3nu, exact constant-density slices <= 100 km",
+                "table": "hat-kernel cell average",
+            },
+            "detector": {"latitude_deg": self.latitude_deg, "depth_m": self.depth_m},
+            "grid": {
+                "energy_mev": [float(self._energy[0]), float(self._energy[-1]), len(self._energy)],
+                "cos_zenith": [-1.0, 0.0, len(self._cosz)],
+            },
+        }
