@@ -237,11 +237,9 @@ class RecoilSampler:
             f = fi if np.ndim(fi) == 0 else fi[sel]
             q = u[sel] * (n_u - 1)
             j = np.minimum(q.astype(np.intp), n_u - 2)
-            row = self._line_table[f, k]
-            if np.ndim(f) == 0:
-                lo, hi = row[j], row[j + 1]
-            else:
-                lo, hi = row[np.arange(sel.size), j], row[np.arange(sel.size), j + 1]
+            # element-wise gather: never materialise a (selected events × n_u) block
+            lo = self._line_table[f, k, j]
+            hi = self._line_table[f, k, j + 1]
             x[sel] = lo + (q - j) * (hi - lo)
 
     # ------------------------------------------------------------------ public API

@@ -1,48 +1,52 @@
 """Solar interior for flavour conversion: electron density and neutrino production regions.
 
+The standard-solar-model (SSM) description is the published tabulation of model
+BS05(AGS,OP) of J. N. Bahcall, A. M. Serenelli & S. Basu, ApJ 621, L85 (2005),
+astro-ph/0412440 (AGS05 composition, OP opacities), as distributed on J. N. Bahcall's
+solar-model web pages (file "bs2005agsopflux"). The packaged copy
+``generator/data/solar/bs05_agsop.txt`` keeps, for 1219 radial zones 0.00041 R⊙ apart
+(0.00041 … 0.49959 R⊙), the radius, the temperature, log₁₀(n_e/N_A cm⁻³) and the fraction of
+each of the eight fluxes produced in the zone (provenance and checksums in its header).
+
 Two electron-density profiles are offered (``profile`` argument):
 
 ``"ssm"`` (default)
-    An analytic description of the present-day solar core built in this module.  It joins the
-    exponential fit of Bahcall (*Neutrino Astrophysics*, CUP 1989; n_e = 245 N_A cm⁻³
-    exp(−10.54 r/R⊙), from memory) outside the core to a flat-topped core anchored to the
-    standard-solar-model (SSM) central values ρ_c = 150 g cm⁻³ and X_c = 0.35 (BP2000/BS05
-    central values, Bahcall, Pinsonneault & Basu, ApJ 555, 990 (2001); from memory), which give
-    n_e(0) = ρ_c (1 + X_c)/2 ≈ 101 N_A cm⁻³.  Composition: hydrogen mass fraction rising from
-    X_c at the centre to 0.71 outside the burnt core; temperature T_c = 15.7 MK (from memory)
-    with a Lorentzian fall-off (T = T_c/2 at 0.24 R⊙, shape from memory of SSM tables).
-    It is *not* a published SSM table; see :func:`mass_density` for the exact construction.
+    Inside the table (r ≤ 0.49959 R⊙): linear interpolation of log₁₀ n_e in r; below the
+    first zone (r < 0.00041 R⊙) the first value (the profile is flat there, d log₁₀ n_e/dr = 0
+    to the printed precision over the first 15 zones). Outside the table: the exponential
+    slope of Bahcall (*Neutrino Astrophysics*, CUP 1989; n_e ∝ exp(−10.54 r/R⊙), from memory)
+    scaled to the last tabulated value, n_e = n_e(r_t) exp(−10.54 (r − r_t)/R⊙), so the
+    profile is continuous at r_t = 0.49959 R⊙. The unscaled Bahcall exponential lies 9 %
+    above the table there (see tests); the table's own logarithmic slope over
+    0.45–0.50 R⊙ is 10.6 per R⊙, so only the normalisation is adjusted.
 
 ``"exponential"``
-    The Bahcall (1989) exponential everywhere.  It overestimates the centre ≈ 2.4× and is kept
-    only to quantify the profile systematic.
+    The Bahcall (1989) fit n_e = 245 N_A cm⁻³ exp(−10.54 r/R⊙) everywhere (from memory). It
+    overestimates the centre 2.4× (245 against the tabulated 102.6) and is kept only to
+    quantify the profile systematic.
 
-Production regions of the eight sources follow from the same core model: the local rate is
-the product of number densities and the non-resonant thermonuclear rate ⟨σv⟩ ∝ τ² e^{−τ},
-τ = 3E₀/kT = 42.487 (Z₁²Z₂² μ/T₆)^{1/3} (constant S-factor; D. D. Clayton, *Principles of
-Stellar Evolution and Nucleosynthesis*, McGraw-Hill 1968, ch. 4; C. Rolfs & W. Rodney,
-*Cauldrons in the Cosmos*, 1988), with ³He and ⁷Be at their local equilibrium abundances
-(Bahcall 1989, ch. 3), ⁷Be electron capture ∝ n_e T^{−1/2} and pep/pp ∝ ρ(1+X) T^{−1/2}
-(Bahcall & May, ApJ 155, 501 (1969); from memory).  The resulting most-probable radii
-(⁸B 0.046, ⁷Be 0.061, pep 0.091, pp 0.101, hep 0.121, ¹⁵O 0.050 R⊙) agree with the values
-read from SSM tables (Bahcall 1989; see tests).  Limitations: the outer ¹²C-burning tail of ¹³N
-and the non-equilibrium ³He shell (which pushes hep outward) are not modelled.
+Production regions: the tabulated fraction f_i of a source's flux produced in zone i is
+spread uniformly over the zone [e_i, e_{i+1}] (edges half-way between tabulated radii,
+first edge 0, last edge 0.49959 + 0.000205 R⊙), giving a piecewise-constant density
+f_i/(e_{i+1} − e_i) per unit r/R⊙ and a piecewise-linear CDF for inverse-CDF sampling.
 """
 
 from __future__ import annotations
 
-from functools import lru_cache
+import functools
+from importlib import resources
+from typing import NamedTuple
 
 import numpy as np
 
-from generator.errors import ConfigError
+from generator.errors import ConfigError, DataFileError
 
 __all__ = [
     "PROFILES",
     "SOURCES",
+    "SsmTable",
+    "ssm_table",
     "electron_density",
-    "mass_density",
-    "hydrogen_fraction",
     "temperature_mk",
     "production_pdf",
     "production_quadrature",
@@ -58,22 +62,36 @@ SOURCES: tuple[str, ...] = ("pp", "pep", "hep", "7Be", "8B", "13N", "15O", "17F"
 # Exponential fit, Bahcall, Neutrino Astrophysics (CUP 1989) — from memory.
 _EXP_NE0 = 245.0  # N_A cm⁻³
 _EXP_SLOPE = 10.54  # per solar radius
-# SSM central anchors (BP2000 / BS05 central values, from memory).
-_RHO_C = 150.0  # g cm⁻³
-_X_C = 0.35
-_T_C_MK = 15.7
-# Outer-core composition and shape choices of our analytic core (from memory of SSM tables:
-# X ≈ 0.53 at 0.1 R⊙, ≈ 0.69 at 0.2 R⊙; T ≈ T_c/2 near 0.24 R⊙; ρ(0.1 R⊙) ≈ 0.6 ρ_c).
-_X_OUT = 0.71
-_X_WIDTH = 0.12
-_Z_METALS = 0.02
-_T_HALF = 0.24
-_CORE_WIDTH = 0.142
-_RHO_OUT = _EXP_NE0 / ((1.0 + _X_OUT) / 2.0)  # density normalisation matching the exponential
-_G0 = np.log(_RHO_OUT / _RHO_C) / _EXP_SLOPE
 
-_R_MAX = 0.5  # production beyond 0.5 R⊙ is negligible (< 1e-6 of every source)
-_N_QUAD = 2000
+_TABLE_FILE = ("data", "solar", "bs05_agsop.txt")
+# Source order of the fraction columns in the packaged file (published column order).
+_TABLE_SOURCES: tuple[str, ...] = ("pp", "8B", "13N", "15O", "17F", "7Be", "pep", "hep")
+_N_ROWS = 1219
+
+
+class SsmTable(NamedTuple):
+    """The packaged BS05(AGS,OP) tabulation (read-only arrays).
+
+    Attributes
+    ----------
+    r : ndarray, shape (1219,)
+        Zone radii r/R⊙ (0.00041 … 0.49959).
+    t6 : ndarray, shape (1219,)
+        Temperature in 10⁶ K.
+    log10_ne : ndarray, shape (1219,)
+        log₁₀(n_e / (N_A cm⁻³)).
+    fractions : dict of str to ndarray, shape (1219,)
+        Published fraction of each source's flux produced in each zone (as printed; each
+        column sums to 1 within the rounding of the printed digits).
+    edges : ndarray, shape (1220,)
+        Zone edges r/R⊙: 0, midpoints between tabulated radii, last radius + half a step.
+    """
+
+    r: np.ndarray
+    t6: np.ndarray
+    log10_ne: np.ndarray
+    fractions: dict[str, np.ndarray]
+    edges: np.ndarray
 
 
 def _check_profile(profile: str) -> None:
@@ -86,76 +104,63 @@ def _check_source(source: str) -> None:
         raise ConfigError(f"source: unknown value {source!r}; allowed: {SOURCES}")
 
 
-def hydrogen_fraction(x: np.ndarray | float) -> np.ndarray:
-    """Hydrogen mass fraction X(r) of the analytic core model.
-
-    X = X_out − (X_out − X_c) exp(−(x/0.12)²) with X_c = 0.35 (SSM centre, from memory) and
-    X_out = 0.71.
-
-    Parameters
-    ----------
-    x : array_like
-        Radius in units of the solar radius, any shape.
+@functools.cache
+def ssm_table() -> SsmTable:
+    """Load the packaged BS05(AGS,OP) table once (cached).
 
     Returns
     -------
-    ndarray
-        Mass fraction, same shape as ``x``.
+    SsmTable
+        Radii, temperature, log₁₀ n_e, per-zone flux fractions and zone edges.
+
+    Raises
+    ------
+    DataFileError
+        The packaged file is missing or malformed (wrong shape, non-increasing radii, or a
+        fraction column not summing to 1 within 1e-4).
     """
-    x = np.asarray(x, dtype=float)
-    return _X_OUT - (_X_OUT - _X_C) * np.exp(-((x / _X_WIDTH) ** 2))
-
-
-def temperature_mk(x: np.ndarray | float) -> np.ndarray:
-    """Temperature of the analytic core model, T = T_c/(1 + (x/0.24)²), in 10⁶ K.
-
-    Parameters
-    ----------
-    x : array_like
-        Radius / R⊙.
-
-    Returns
-    -------
-    ndarray
-        Temperature in MK (T_c = 15.7 MK, SSM central value, from memory).
-    """
-    x = np.asarray(x, dtype=float)
-    return _T_C_MK / (1.0 + (x / _T_HALF) ** 2)
-
-
-def mass_density(x: np.ndarray | float) -> np.ndarray:
-    """Mass density of the analytic core model in g cm⁻³.
-
-    ρ = ρ_out exp(−10.54 g(x)) with g(x) = sqrt(x² + g₀² exp(−(x/0.142)²)): equal to the
-    Bahcall (1989) exponential (divided by (1 + X_out)/2) for x ≳ 0.25, quadratic at the centre
-    with ρ(0) = ρ_c = 150 g cm⁻³ (zero slope, as hydrostatic equilibrium requires) and
-    ρ(0.1 R⊙) ≈ 0.6 ρ_c.
-
-    Parameters
-    ----------
-    x : array_like
-        Radius / R⊙.
-
-    Returns
-    -------
-    ndarray
-        Density in g cm⁻³, same shape as ``x``.
-    """
-    x = np.abs(np.asarray(x, dtype=float))
-    g = np.sqrt(x * x + _G0 * _G0 * np.exp(-((x / _CORE_WIDTH) ** 2)))
-    return _RHO_OUT * np.exp(-_EXP_SLOPE * g)
+    name = "/".join(_TABLE_FILE)
+    try:
+        text = resources.files("generator").joinpath(*_TABLE_FILE).read_text(encoding="utf-8")
+        data = np.loadtxt(text.splitlines(), comments="#", dtype=float, ndmin=2)
+    except (OSError, ValueError) as exc:
+        raise DataFileError(f"{name}: cannot read the packaged solar-model table ({exc})") from exc
+    if data.shape != (_N_ROWS, 3 + len(_TABLE_SOURCES)):
+        raise DataFileError(
+            f"{name}: expected {_N_ROWS} rows × {3 + len(_TABLE_SOURCES)} columns, got {data.shape}"
+        )
+    r = data[:, 0].copy()
+    if r[0] <= 0.0 or np.any(np.diff(r) <= 0.0):
+        raise DataFileError(f"{name}: radii must be positive and strictly increasing")
+    fractions = {}
+    for k, s in enumerate(_TABLE_SOURCES):
+        col = data[:, 3 + k].copy()
+        if np.any(col < 0.0) or abs(col.sum() - 1.0) > 1e-4:
+            raise DataFileError(
+                f"{name}: fraction column of {s} sums to {col.sum():.6f}; expected 1 ± 1e-4"
+            )
+        col.setflags(write=False)
+        fractions[s] = col
+    edges = np.concatenate([[0.0], 0.5 * (r[1:] + r[:-1]), [r[-1] + 0.5 * (r[-1] - r[-2])]])
+    t6 = data[:, 1].copy()
+    log_ne = data[:, 2].copy()
+    for a in (r, t6, log_ne, edges):
+        a.setflags(write=False)
+    return SsmTable(r, t6, log_ne, fractions, edges)
 
 
 def electron_density(x: np.ndarray | float, profile: str = "ssm") -> np.ndarray:
     """Electron number density n_e(r) in units of N_A cm⁻³.
 
-    ``"ssm"``: n_e = ρ (1 + X)/2 (full ionisation of H and He; metals change it by < 0.1 %).
+    ``"ssm"``: BS05(AGS,OP) table (Bahcall, Serenelli & Basu 2005), log₁₀ n_e interpolated
+    linearly in r inside the table, continued outside it by the Bahcall (1989) exponential
+    slope 10.54/R⊙ scaled to the last tabulated value (module docstring).
     ``"exponential"``: 245 exp(−10.54 x) (Bahcall 1989, from memory).
 
     Parameters
     ----------
     x : array_like
-        Radius / R⊙ (0 ≤ x ≤ 1).
+        Radius / R⊙, any shape (the profile is even in x; use 0 ≤ x ≤ 1).
     profile : {"ssm", "exponential"}
         Profile name.
 
@@ -170,64 +175,55 @@ def electron_density(x: np.ndarray | float, profile: str = "ssm") -> np.ndarray:
         Unknown profile.
     """
     _check_profile(profile)
-    x = np.asarray(x, dtype=float)
+    x = np.abs(np.asarray(x, dtype=float))
     if profile == "exponential":
         return _EXP_NE0 * np.exp(-_EXP_SLOPE * x)
-    return mass_density(x) * (1.0 + hydrogen_fraction(x)) / 2.0
+    t = ssm_table()
+    r_t = t.r[-1]
+    inside = 10.0 ** np.interp(np.minimum(x, r_t), t.r, t.log10_ne)
+    outside = 10.0 ** t.log10_ne[-1] * np.exp(-_EXP_SLOPE * np.maximum(x - r_t, 0.0))
+    return np.where(x <= r_t, inside, outside)
 
 
-def _sigma_v(z1: int, z2: int, mu: float, t6: np.ndarray) -> np.ndarray:
-    """Non-resonant ⟨σv⟩ up to a constant: τ² e^{−τ}, τ = 42.487 (Z₁²Z₂²μ/T₆)^{1/3}.
+def temperature_mk(x: np.ndarray | float) -> np.ndarray:
+    """Temperature of the BS05(AGS,OP) model in 10⁶ K (linear interpolation of the table).
 
-    Constant-S-factor Gamow-peak rate (Clayton 1968, ch. 4); μ in atomic mass units.
+    Parameters
+    ----------
+    x : array_like
+        Radius / R⊙, 0 ≤ x ≤ 0.49959 (the table range; below the first zone the first
+        value is used).
+
+    Returns
+    -------
+    ndarray
+        Temperature in MK, same shape as ``x``.
+
+    Raises
+    ------
+    ConfigError
+        ``x`` outside [0, 0.49959] (the model is not tabulated there).
     """
-    tau = 42.487 * (z1 * z1 * z2 * z2 * mu / t6) ** (1.0 / 3.0)
-    return tau * tau * np.exp(-tau)
+    t = ssm_table()
+    x = np.asarray(x, dtype=float)
+    if x.size and not (np.all(x >= 0.0) and np.all(x <= t.r[-1])):
+        raise ConfigError(
+            f"x: radius outside the tabulated range [0, {t.r[-1]}] R_sun "
+            f"(got min {x.min()}, max {x.max()})"
+        )
+    return np.interp(x, t.r, t.t6)
 
 
-def _rate_density(source: str, x: np.ndarray) -> np.ndarray:
-    """Unnormalised production rate per unit radius, ∝ x² × rate per volume."""
-    rho = mass_density(x)
-    xh = hydrogen_fraction(x)
-    y = 1.0 - xh - _Z_METALS
-    t6 = temperature_mk(x)
-    s_pp = _sigma_v(1, 1, 0.5, t6)
-    # ³He in local equilibrium: X₃ ∝ X (⟨σv⟩_pp/⟨σv⟩_33)^{1/2} (Bahcall 1989, ch. 3).
-    x3 = xh * np.sqrt(s_pp / _sigma_v(2, 2, 1.5, t6))
-    s34 = _sigma_v(2, 2, 12.0 / 7.0, t6)
-    if source == "pp":
-        rate = rho**2 * xh**2 * s_pp
-    elif source == "pep":
-        rate = rho**3 * xh**2 * (1.0 + xh) * s_pp / np.sqrt(t6)
-    elif source == "hep":
-        rate = rho**2 * xh * x3 * _sigma_v(2, 1, 0.75, t6)
-    elif source == "7Be":
-        rate = rho**2 * x3 * y * s34
-    elif source == "8B":
-        # ⁷Be equilibrium between ³He(α,γ) production and e⁻ capture ∝ n_e T^{-1/2}.
-        n7 = rho**2 * x3 * y * s34 / (rho * (1.0 + xh) / np.sqrt(t6))
-        rate = n7 * rho * xh * _sigma_v(4, 1, 7.0 / 8.0, t6)
-    elif source in ("13N", "15O"):
-        # CN cycle in equilibrium: every cycle is paced by ¹⁴N(p,γ).
-        rate = rho**2 * xh * _sigma_v(7, 1, 14.0 / 15.0, t6)
-    else:  # 17F
-        rate = rho**2 * xh * _sigma_v(8, 1, 16.0 / 17.0, t6)
-    return x * x * rate
-
-
-@lru_cache(maxsize=16)
+@functools.cache
 def _quadrature(source: str) -> tuple[np.ndarray, np.ndarray]:
-    edges = np.linspace(0.0, _R_MAX, _N_QUAD + 1)
-    mid = 0.5 * (edges[1:] + edges[:-1])
-    w = _rate_density(source, mid)
-    w = w / w.sum()
-    mid.setflags(write=False)
+    t = ssm_table()
+    w = t.fractions[source] / t.fractions[source].sum()
     w.setflags(write=False)
-    return mid, w
+    return t.r, w
 
 
 def production_quadrature(source: str) -> tuple[np.ndarray, np.ndarray]:
-    """Midpoint quadrature of the production region (cached).
+    """Zone radii and normalised production weights of a source (cached).
 
     Parameters
     ----------
@@ -236,40 +232,53 @@ def production_quadrature(source: str) -> tuple[np.ndarray, np.ndarray]:
 
     Returns
     -------
-    x : ndarray, shape (2000,)
-        Bin-centre radii / R⊙ on [0, 0.5].
-    weights : ndarray, shape (2000,)
-        Fraction of the source's neutrinos produced in each bin (sums to 1).
+    x : ndarray, shape (1219,)
+        Tabulated zone radii / R⊙ (0.00041 … 0.49959).
+    weights : ndarray, shape (1219,)
+        Fraction of the source's neutrinos produced in each zone: the published BS05(AGS,OP)
+        fractions divided by their sum (which differs from 1 by < 1e-5), so they sum to 1.
+
+    Raises
+    ------
+    ConfigError
+        Unknown source.
     """
     _check_source(source)
     return _quadrature(source)
 
 
 def production_pdf(source: str, x: np.ndarray | float) -> np.ndarray:
-    """Normalised radial production density f(x), ∫₀¹ f dx = 1.
+    """Normalised radial production density f(x), ∫₀¹ f dx = 1 (piecewise constant).
 
     Parameters
     ----------
     source : str
         One of :data:`SOURCES`.
     x : array_like
-        Radius / R⊙.
+        Radius / R⊙, any shape.
 
     Returns
     -------
     ndarray
-        Density per unit x (R⊙⁻¹), same shape as ``x``; zero beyond 0.5 R⊙.
+        Density per unit x (R⊙⁻¹), same shape as ``x``: weight / zone width in the zone
+        containing x; zero outside [0, 0.4998] (beyond the table).
+
+    Raises
+    ------
+    ConfigError
+        Unknown source.
     """
-    mid, w = production_quadrature(source)
-    dx = mid[1] - mid[0]
-    norm = w.sum() / (_rate_density(source, mid).sum() * dx)
+    _, w = production_quadrature(source)
+    edges = ssm_table().edges
+    dens = w / np.diff(edges)
     x = np.asarray(x, dtype=float)
-    inside = (x >= 0.0) & (x <= _R_MAX)
-    return np.where(inside, _rate_density(source, np.clip(x, 0.0, _R_MAX)) * norm, 0.0)
+    i = np.clip(np.searchsorted(edges, x, side="right") - 1, 0, w.size - 1)
+    inside = (x >= 0.0) & (x <= edges[-1])
+    return np.where(inside, dens[i], 0.0)
 
 
 def sample_production_radius(source: str, n: int, rng: np.random.Generator) -> np.ndarray:
-    """Draw production radii from the source's radial distribution (inverse CDF).
+    """Draw production radii from the source's tabulated radial distribution (inverse CDF).
 
     Parameters
     ----------
@@ -283,11 +292,14 @@ def sample_production_radius(source: str, n: int, rng: np.random.Generator) -> n
     Returns
     -------
     ndarray, shape (n,)
-        Radii / R⊙.
+        Radii / R⊙, uniform within each zone (piecewise-linear CDF through the zone edges).
+
+    Raises
+    ------
+    ConfigError
+        Unknown source.
     """
-    mid, w = production_quadrature(source)
-    dx = mid[1] - mid[0]
+    _, w = production_quadrature(source)
     cdf = np.concatenate([[0.0], np.cumsum(w)])
     cdf[-1] = 1.0
-    edges = np.concatenate([mid - 0.5 * dx, [mid[-1] + 0.5 * dx]])
-    return np.interp(rng.random(n), cdf, edges)
+    return np.interp(rng.random(n), cdf, ssm_table().edges)

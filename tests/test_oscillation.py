@@ -276,7 +276,7 @@ def test_out_of_range_energy(model):
 
 
 def test_profile_shift_8b_and_7be():
-    # README number: P_ee change between the core model and the exponential profile.
+    # README number: P_ee change between the BS05(AGS,OP) table ("ssm") and the exponential.
     # Expect the exponential (2.4× denser centre) to lower ⁸B P_ee at 10 MeV; size ≈ 0.02
     # (brief, from memory) — checked loosely (0.005–0.04).
     pe = {}
