@@ -159,3 +159,37 @@ def test_sigkill_mid_write_leaves_no_final_file(tmp_path: Path):
             proc.kill()
     assert proc.returncode == -9
     assert not out.exists()
+
+
+@pytest.mark.parametrize(("table", "problem"), [
+    ("1.0 0.5\n0.5 0.7\n2.0 0.1\n", "increasing"),
+    ("0.5 0.5\n1.0 -0.7\n2.0 0.1\n", "negative"),
+    ("0.5 0.5\n1.0 nan\n2.0 0.1\n", "finite"),
+    ("0.5 0.5 3\n1.0 0.7\n", ""),
+    ("", ""),
+])
+def test_malformed_custom_spectrum_exits_2(tmp_path: Path, table: str, problem: str):
+    (tmp_path / "spec.txt").write_text(table)
+    (tmp_path / "c.toml").write_text(
+        '[sources]\ninclude = ["8B"]\n[[sources.custom]]\nname = "mine"\n'
+        'spectrum_file = "spec.txt"\nflux = 1e6\n')
+    r = run_cli("generate", "c.toml", "-o", "o.h5", "--events", "5", cwd=tmp_path)
+    assert r.returncode == 2, r.stderr
+    assert "spec.txt" in r.stderr
+    assert problem in r.stderr
+    assert not (tmp_path / "o.h5").exists()
+
+
+def test_custom_source_generates(tmp_path: Path):
+    (tmp_path / "spec.txt").write_text("# energy_MeV density\n4.0 0.0\n6.0 1.0\n8.0 0.0\n")
+    (tmp_path / "c.toml").write_text(
+        '[sources]\ninclude = ["8B"]\n[[sources.custom]]\nname = "mine"\n'
+        'spectrum_file = "spec.txt"\nflux = 1e7\n')
+    r = run_cli("generate", "c.toml", "-o", "o.h5", "--events", "2000", "--seed", "4",
+                "--quiet", cwd=tmp_path)
+    assert r.returncode == 0, r.stderr
+    with h5py.File(tmp_path / "o.h5", "r") as f:
+        names = [n.decode() for n in f["events/origin"].attrs["names"]]
+        assert names == ["8B", "mine"]
+        e = f["events/nu_energy"][:][f["events/origin"][:] == 9]
+        assert e.size > 0 and e.min() >= 4.0 and e.max() <= 8.0
