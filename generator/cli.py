@@ -69,11 +69,17 @@ def _cmd_generate(args: argparse.Namespace) -> int:
     cfg = load_config(args.config)
     bar = None
     if not args.quiet:
-        bar = tqdm(total=args.events or None, unit="ev", unit_scale=True, file=sys.stderr,
+        bar = tqdm(total=args.events, unit="ev", unit_scale=True, file=sys.stderr,
                    desc="generate")
+
+    def start(n: int) -> None:
+        if bar is not None:
+            bar.reset(total=n)
+
     try:
         summary = generate(cfg, args.output, n_events=args.events, seed=args.seed,
-                           force=args.force, progress=bar.update if bar is not None else None)
+                           force=args.force, progress=bar.update if bar is not None else None,
+                           on_start=start)
     finally:
         if bar is not None:
             bar.close()

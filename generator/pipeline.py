@@ -423,7 +423,8 @@ def _write_tables(sink: Any, plan: RunPlan) -> None:
 
 def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None = None,
              seed: int | None = None, force: bool = False, sink: Any | None = None,
-             progress: Callable[[int], None] | None = None) -> RunSummary:
+             progress: Callable[[int], None] | None = None,
+             on_start: Callable[[int], None] | None = None) -> RunSummary:
     """Generate events for a configuration and write them to an HDF5 file (or a given sink).
 
     Parameters
@@ -443,6 +444,8 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         An event sink (e.g. :class:`~generator.io.writer.MemorySink`).
     progress : callable, optional
         Called with the number of events of each finished chunk.
+    on_start : callable, optional
+        Called once with the total event count, after the tables are built.
 
     Raises
     ------
@@ -459,6 +462,8 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         check_output_path(path, force)        # fail early, before the expensive tables
     plan = build_plan(cfg)
     n_total = _event_count(plan, entropy, n_events)
+    if on_start is not None:
+        on_start(n_total)
     chunk = cfg.run.chunk_size
     n_chunks = -(-n_total // chunk)
     weight = plan.expected_total / n_total if n_total else 0.0
