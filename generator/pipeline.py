@@ -13,11 +13,11 @@ and dσ_α/dT the ν_α–e cross section. Events are drawn exactly from this de
 
 1. the source, in proportion to its expected count (computed deterministically, see
    :func:`build_plan`);
-2. (E, t) from the proposal f_s(E) σ_max(E) × (1 AU / r(t))² on live time, with
-   σ_max = max_α σ_α(E; T > T_th);
-3. the flavour α with probability P_α σ_α / σ_max; the remaining probability rejects the
-   pair, which is drawn again (this is exact rejection sampling, and the acceptance never
-   enters the normalisation);
+2. (E, t) from the proposal f_s(E) B(E) × (1 AU / r(t))² on live time, where the envelope
+   B(E) ≥ Σ_α P_α(E, θ_z) σ_α(E; T > T_th) for every zenith angle (:class:`Envelope`);
+3. the flavour α with probability P_α σ_α / B; the remaining probability rejects the pair,
+   which is drawn again (exact rejection sampling; the acceptance, 95–99 %, never enters the
+   normalisation);
 4. T from dσ_α/dT (E) above the threshold, the electron direction from exact two-body
    kinematics around the Sun-to-detector direction at time t, and the vertex uniformly in
    the fiducial volume.
@@ -56,8 +56,8 @@ from .oscillation import PRESETS, FlavourModel, OscillationParams
 from .recoil import RecoilSampler
 from .xsec import XsecModel
 
-__all__ = ["RunPlan", "SourcePlan", "build_plan", "generate", "generate_chunk", "chunk_seed",
-           "RunSummary", "COUNT_SPAWN_KEY"]
+__all__ = ["Envelope", "RunPlan", "SourcePlan", "build_plan", "generate", "generate_chunk",
+           "chunk_seed", "RunSummary", "COUNT_SPAWN_KEY"]
 
 log = logging.getLogger(__name__)
 
@@ -87,6 +87,8 @@ class SourcePlan:
     expected_events: float            # for the configured exposure
     mean_sigma: float                 # exposure- and flavour-averaged σ per neutrino (cm²)
     lines: tuple[tuple[float, float], ...] = ()
+    envelope: Any = None              # Envelope: bound on Σ_α P_α σ_α over zenith angles
+    efficiency: float = 1.0           # expected acceptance of the rejection step
 
 
 @dataclass
@@ -218,6 +220,53 @@ def _sigma_matrix(recoil: RecoilSampler, energy: np.ndarray, pdgs: tuple[int, ..
     return out
 
 
+#: Relative safety margin of the acceptance envelope (covers interpolation between the nodes
+#: where the bound is evaluated; acceptance probabilities above 1 are counted and logged).
+ENVELOPE_MARGIN = 1.01
+
+#: Points of the uniform energy grid of the acceptance envelope.
+ENVELOPE_POINTS = 4096
+
+
+@dataclass
+class Envelope:
+    """Upper bound B(E) ≥ Σ_α P_α(E, θ_z) σ_α(E) over all zenith angles (cm²).
+
+    Piecewise linear on a uniform energy grid, so evaluating it is index arithmetic.
+    """
+
+    e0: float
+    inv_de: float
+    values: np.ndarray = field(repr=False)
+
+    def __call__(self, energy: np.ndarray) -> np.ndarray:
+        """B(E) in cm² for energies in MeV (clamped to the grid)."""
+        x = (np.asarray(energy, dtype=np.float64) - self.e0) * self.inv_de
+        i = np.clip(x.astype(np.intp), 0, self.values.size - 2)
+        f = np.clip(x - i, 0.0, 1.0)
+        v = self.values
+        return v[i] + f * (v[i + 1] - v[i])
+
+
+def _zenith_nodes(flavour: FlavourModel) -> np.ndarray:
+    """Cos-zenith values at which the flavour probabilities take their extreme values.
+
+    By day the probabilities do not depend on the zenith angle; at night they are
+    interpolated linearly between the nodes of the Earth table, so their extremes at a given
+    energy lie on those nodes.
+    """
+    night = flavour.night_table()
+    nodes = [np.array([0.5])]
+    if night:
+        nodes.append(np.asarray(night["cos_zenith"], dtype=np.float64))
+    return np.concatenate(nodes)
+
+
+def _weighted_sigma(flavour, region, energy, cz, sig) -> np.ndarray:
+    p = flavour.probabilities(region, energy, np.full(energy.size, cz))
+    return np.einsum("ij,ij->i", p, sig)
+
+
 def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, wz, w_total,
                  n_e) -> SourcePlan:
     from .spectra import InverseCDFSampler
@@ -229,42 +278,48 @@ def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, 
     if spec.continuous_fraction > 0 and keep.any() and e_lo > e_grid[0]:
         e_grid = np.concatenate([[e_lo], e_grid[keep]])
         pdf = np.concatenate([spec.pdf(np.array([e_lo])), pdf[keep]])
-    sig = _sigma_matrix(recoil, e_grid, pdgs)
-    sig_max = sig.max(axis=1)
-    # exposure-averaged Σ_α P_α σ_α on the grid
-    avg = np.zeros(e_grid.size)
-    for c, w in zip(centres, wz, strict=True):
-        if w <= 0.0:
-            continue
-        p = flavour.probabilities(region, e_grid, np.full(e_grid.size, c))
-        avg += w * np.einsum("ij,ij->i", p, sig)
-    avg /= w_total
-    cont = np.trapezoid(pdf * avg, e_grid) if spec.continuous_fraction > 0 else 0.0
     line_e = np.array([ln[0] for ln in spec.lines])
     line_b = np.array([ln[1] for ln in spec.lines])
-    line_term = 0.0
-    line_w = np.zeros(0)
-    if line_e.size:
-        sig_l = _sigma_matrix(recoil, line_e, pdgs)
-        lavg = np.zeros(line_e.size)
-        for c, w in zip(centres, wz, strict=True):
-            if w <= 0.0:
-                continue
-            p = flavour.probabilities(region, line_e, np.full(line_e.size, c))
-            lavg += w * np.einsum("ij,ij->i", p, sig_l)
-        lavg /= w_total
-        line_term = float(np.sum(line_b * lavg))
-        line_w = line_b * sig_l.max(axis=1)
+    all_e = np.concatenate([e_grid, line_e])
+    sig = _sigma_matrix(recoil, all_e, pdgs)
+    # exposure-averaged Σ_α P_α σ_α (zenith bins weighted by live time × (1 AU/r)²)
+    avg = np.zeros(all_e.size)
+    for c, w in zip(centres, wz, strict=True):
+        if w > 0.0:
+            avg += w * _weighted_sigma(flavour, region, all_e, c, sig)
+    avg /= w_total
+    # envelope over all zenith angles, for the rejection step
+    env = np.zeros(all_e.size)
+    for c in _zenith_nodes(flavour):
+        env = np.maximum(env, _weighted_sigma(flavour, region, all_e, c, sig))
+    env *= ENVELOPE_MARGIN
+    n_grid = e_grid.size
+    cont = np.trapezoid(pdf * avg[:n_grid], e_grid) if spec.continuous_fraction > 0 else 0.0
+    line_term = float(np.sum(line_b * avg[n_grid:])) if line_e.size else 0.0
     mean_sigma = float(cont + line_term)
     expected = n_e * phi * w_total * mean_sigma
-    dens = pdf * sig_max if spec.continuous_fraction > 0 else np.zeros_like(pdf)
+    lo, hi = float(all_e.min()), float(all_e.max())
+    grid_u = np.linspace(lo, hi, ENVELOPE_POINTS)
+    order = np.argsort(all_e)
+    values = np.interp(grid_u, all_e[order], env[order])
+    envelope = Envelope(lo, (ENVELOPE_POINTS - 1) / (hi - lo) if hi > lo else 0.0, values)
+    # make sure the piecewise-linear bound covers every evaluated point (lines included)
+    short = env / np.maximum(envelope(all_e), 1e-300)
+    if np.any(short > 1.0):
+        idx = np.clip(((all_e - lo) * envelope.inv_de).astype(np.intp), 0, values.size - 2)
+        for i, k in zip(idx[short > 1.0], np.flatnonzero(short > 1.0), strict=True):
+            values[i:i + 2] = np.maximum(values[i:i + 2], env[k])
     proposal = None
+    efficiency = 1.0
     if expected > 0.0:
-        keep = line_w > 0
-        proposal = InverseCDFSampler(e_grid, dens, lines=tuple(line_e[keep]),
-                                     line_weights=tuple(line_w[keep]))
+        dens = pdf * envelope(e_grid) if spec.continuous_fraction > 0 else np.zeros_like(pdf)
+        line_w = line_b * envelope(line_e) if line_e.size else np.zeros(0)
+        keep_l = line_w > 0
+        proposal = InverseCDFSampler(e_grid, dens, lines=tuple(line_e[keep_l]),
+                                     line_weights=tuple(line_w[keep_l]))
+        efficiency = min(1.0, mean_sigma / proposal.total)
     return SourcePlan(name, code, region, phi, spec, proposal, float(expected), mean_sigma,
-                      tuple(spec.lines))
+                      tuple(spec.lines), envelope, efficiency)
 
 
 def chunk_seed(entropy: int, k: int) -> np.random.SeedSequence:
@@ -290,27 +345,32 @@ def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: floa
     nu_dir = np.empty((n, 3))
     cosz = np.empty(n)
     pdg_arr = np.array(plan.pdgs)
+    n_over = 0
     for s, sp in enumerate(plan.sources):
         pending = np.flatnonzero(src == s)
         while pending.size:
-            m = pending.size
+            # draw enough candidates for all pending events at the expected acceptance
+            m = int(pending.size / max(sp.efficiency, 0.05) * 1.05) + 16
             e = sp.proposal.sample(rng, m)
             t = plan.exposure.sample_times(rng, m)
             d, cz, _ = plan.exposure.sun(t)
             p = plan.flavour.probabilities(sp.production_region, e, cz)
-            sig = _sigma_matrix(plan.recoil, e, plan.pdgs)
-            smax = sig.max(axis=1)
-            acc = np.cumsum(p * sig, axis=1) / np.where(smax > 0, smax, 1.0)[:, None]
+            w = p * _sigma_matrix(plan.recoil, e, plan.pdgs)
+            acc = np.cumsum(w, axis=1) / sp.envelope(e)[:, None]
+            n_over += int(np.count_nonzero(acc[:, -1] > 1.0))
             v = rng.random(m)
             choice = np.sum(v[:, None] >= acc, axis=1)
-            ok = choice < len(plan.pdgs)
-            idx = pending[ok]
+            ok = np.flatnonzero(choice < len(plan.pdgs))[:pending.size]
+            idx = pending[:ok.size]
             energy[idx] = e[ok]
             times[idx] = t[ok]
             flav[idx] = choice[ok]
             nu_dir[idx] = d[ok]
             cosz[idx] = cz[ok]
-            pending = pending[~ok]
+            pending = pending[ok.size:]
+    if n_over:
+        log.warning("acceptance above 1 for %d candidates (envelope too tight); the flavour "
+                    "mix of those events is biased by at most the excess", n_over)
     pdg = FLAVOUR_PDG[flav] if len(plan.pdgs) == 3 else np.full(n, pdg_arr[0], np.int16)
     t_e = plan.recoil.sample(rng, energy, pdg)
     e_dir, _, _ = kinematics.scatter(rng, energy, t_e, nu_dir)

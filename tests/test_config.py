@@ -155,3 +155,38 @@ def test_invalid_toml_and_unreadable_file(tmp_path: Path):
 
 def test_default_text_is_package_data():
     assert "[detector]" in default_config_text()
+
+
+# Property test: whatever value a key receives, parsing either succeeds or raises ConfigError
+# naming that key — never another exception type.
+_KEYS = [("detector", "fiducial_radius_m"), ("detector", "latitude_deg"),
+         ("detector", "longitude_deg"), ("detector", "depth_m"), ("exposure", "live_days"),
+         ("oscillation", "sin2_theta12"), ("oscillation", "dm2_31"),
+         ("interaction", "threshold_mev"), ("interaction", "magnetic_moment"),
+         ("run", "events"), ("run", "seed"), ("run", "chunk_size"), ("output", "compression"),
+         ("sources", "flux_model"), ("detector", "medium")]
+
+try:
+    from hypothesis import example, given, settings
+    from hypothesis import strategies as st
+except ImportError:  # pragma: no cover
+    st = None
+
+if st is not None:
+    _values = st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.integers(),
+                        st.text(max_size=12), st.booleans(), st.lists(st.integers(), max_size=3))
+
+    @settings(max_examples=150, deadline=None)
+    @given(key=st.sampled_from(_KEYS), value=_values)
+    @example(key=("exposure", "live_days"), value=1e308)
+    @example(key=("run", "seed"), value=2**130)
+    def test_any_value_parses_or_names_the_key(key, value):
+        data = tomllib.loads(default_config_text())
+        section, name = key
+        data[section][name] = value
+        if name == "live_days":
+            data["exposure"].pop("stop_utc", None)
+        try:
+            parse_config(data)
+        except ConfigError as exc:
+            assert f"{section}.{name}" in str(exc) or section in str(exc)
