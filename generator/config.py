@@ -336,7 +336,8 @@ def _parse_sources(t: Any, base_dir: Path | None) -> SourcesConfig:
     include = s._get("include", list(KNOWN_SOURCES))
     if not isinstance(include, list) or not all(isinstance(x, str) for x in include):
         raise ConfigError(f"sources.include: expected a list of source names, got {_fmt(include)}")
-    b8_shape = s.string("b8_shape", "nominal", choices=("nominal", "plus1sigma", "minus1sigma"))
+    b8_shape = s.string("b8_shape", "nominal",
+                        choices=("nominal", "plus1sigma", "minus1sigma", "measured"))
     scale = _pairs(s._get("scale", {}), "sources.scale", 0.0, False)
     override = _pairs(s._get("flux_override", {}), "sources.flux_override", 0.0, False)
     custom_raw = s._get("custom", [])

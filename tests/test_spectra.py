@@ -210,12 +210,50 @@ def test_b8_mean_peak_and_tail():
     assert e[-1] == pytest.approx(17.05, abs=0.01)
 
 
-def test_b8_variants_bracket_nominal():
+def test_b8_variants_follow_the_measured_one_sigma():
+    """±1σ variants = model × (1 ± ΔP/P) of the measured spectrum (Winter et al., PRC 73,
+    025503 (2006)); applied to the measured spectrum itself that column moves the mean from
+    6.770 to 6.761 (+ΔP) and 6.779 MeV (−ΔP), i.e. ∓0.13 % (computed from the table)."""
     m0 = get_spectrum("8B").mean()
     mp = get_spectrum("8B", "plus1sigma").mean()
     mm = get_spectrum("8B", "minus1sigma").mean()
-    assert mm < m0 < mp
-    assert 0.002 < (mp - m0) / m0 < 0.02 and 0.002 < (m0 - mm) / m0 < 0.02
+    assert mp < m0 < mm
+    assert (mp - m0) / m0 == pytest.approx(-0.0013, abs=4e-4)
+    assert (mm - m0) / m0 == pytest.approx(+0.0013, abs=4e-4)
+
+
+def test_b8_model_against_measured_spectrum():
+    """The physics model against the measured spectrum of Winter et al., PRC 73, 025503
+    (2006) (table shipped in generator/data/spectra; mean 6.770 MeV, peak bin 6.5 MeV).
+
+    Tolerances: mean 0.5 % (issue requirement); peak within one 0.1 MeV bin; shape within
+    2.5 % of the measured density over 2–13 MeV, where it holds > 10 % of its maximum
+    (documents the model's residual: ≤ 2.1 %, < 1 % over 4–12 MeV); < 1e-4 of the model
+    above the last non-zero measured bin (15.2 MeV).
+    """
+    from generator.spectra.boron8_measured import measured_b8_table
+
+    te, tp, _ = measured_b8_table()
+    mean_measured = np.trapezoid(te * tp, te)
+    assert mean_measured == pytest.approx(6.770, abs=5e-4)
+    model = get_spectrum("8B")
+    assert model.mean() == pytest.approx(mean_measured, rel=5e-3)
+    e, f = model.grid()
+    assert abs(e[np.argmax(f)] - te[np.argmax(tp)]) <= 0.1
+    sel = (te >= 2.0) & (te <= 13.0)
+    ratio = model.pdf(te[sel]) / tp[sel]
+    assert np.max(np.abs(ratio - 1.0)) < 0.025
+    tail = np.trapezoid(np.where(e > 15.25, f, 0.0), e)
+    assert tail < 1e-4
+
+
+def test_b8_measured_variant_is_the_table():
+    from generator.spectra.boron8_measured import measured_b8_table
+
+    te, tp, _ = measured_b8_table()
+    sp = get_spectrum("8B", "measured")
+    assert sp.mean() == pytest.approx(np.trapezoid(te * tp, te), rel=1e-4)
+    np.testing.assert_allclose(sp.pdf(te[1:-3]), tp[1:-3], rtol=2e-3, atol=1e-5)
 
 
 # ----------------------------------------------------------------------------- sampling

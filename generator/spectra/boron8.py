@@ -192,20 +192,9 @@ def penetrability_shift(e_cm: np.ndarray, radius_fm: float) -> tuple[np.ndarray,
     return rho / mod2, rho * np.real(np.conj(h) * dh) / mod2
 
 
-#: Named model variants ("nominal" and the ±1σ shape variants).
-B8_MODELS: dict[str, Boron8Model] = {
-    "nominal": Boron8Model(),
-    # ±1σ shape variants (model-parameter variations, not a measured envelope): the 1σ of
-    # the 2⁺₁ level (E_x ± 0.010 MeV, Γ ± 0.015 MeV; Tilley 2004, from memory) and ±0.1 in
-    # the doublet log ft (half a unit of the last printed digit widened to 0.1, common
-    # practice, no source), moved together so that "plus" hardens the spectrum.
-    "plus1sigma": Boron8Model(
-        level_ex=(3.02, 16.626, 16.922), level_width=(1.498, 0.108, 0.074), log_ft=(5.6, 3.4, 3.4)
-    ),
-    "minus1sigma": Boron8Model(
-        level_ex=(3.04, 16.626, 16.922), level_width=(1.528, 0.108, 0.074), log_ft=(5.6, 3.2, 3.2)
-    ),
-}
+#: Named parameter sets of the model (the ±1σ shape variants are defined from the measured
+#: spectrum's 1σ column in :mod:`generator.spectra.boron8_measured`).
+B8_MODELS: dict[str, Boron8Model] = {"nominal": Boron8Model()}
 
 
 def _rmatrix_levels(model: Boron8Model) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:

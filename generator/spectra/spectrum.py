@@ -24,12 +24,8 @@ from generator.spectra.beta import (
     q_beta_plus,
     q_electron_capture,
 )
-from generator.spectra.boron8 import (
-    B8_MODELS,
-    B8_Q_GROUND_MEV,
-    BE8_GROUND_ABOVE_2ALPHA_MEV,
-    boron8_spectrum,
-)
+from generator.spectra.boron8 import B8_Q_GROUND_MEV, BE8_GROUND_ABOVE_2ALPHA_MEV
+from generator.spectra.boron8_measured import B8_VARIANTS, b8_variant_spectrum
 from generator.spectra.fluxes import SOURCE_NAMES
 from generator.spectra.sampling import InverseCDFSampler
 
@@ -222,7 +218,7 @@ def _build(source: str, variant: str) -> Spectrum:
         e = np.linspace(0.0, q, GRID_POINTS)
         return Spectrum(source, e, allowed_shape(e, q, z, a))
     if source == "8B":
-        e, pdf = boron8_spectrum(variant, GRID_POINTS)
+        e, pdf = b8_variant_spectrum(variant, GRID_POINTS)
         return Spectrum("8B", e, pdf)
     q = source_endpoint(source)
     if source == "7Be":
@@ -241,7 +237,9 @@ def get_spectrum(source: str, variant: str = "nominal") -> Spectrum:
     source : str
         One of ``SOURCE_NAMES``.
     variant : str, optional
-        ``"nominal"``; for ``"8B"`` also ``"plus1sigma"`` / ``"minus1sigma"``.
+        ``"nominal"``; for ``"8B"`` also ``"plus1sigma"`` / ``"minus1sigma"`` (the model
+        with the measured 1σ shape shift applied) and ``"measured"`` (the measured spectrum of
+        Winter et al. 2006), see :mod:`generator.spectra.boron8_measured`.
 
     Returns
     -------
@@ -255,7 +253,7 @@ def get_spectrum(source: str, variant: str = "nominal") -> Spectrum:
     """
     if source not in SOURCE_NAMES:
         raise ConfigError(f"unknown source {source!r}; allowed: {', '.join(SOURCE_NAMES)}")
-    allowed = tuple(B8_MODELS) if source == "8B" else ("nominal",)
+    allowed = B8_VARIANTS if source == "8B" else ("nominal",)
     if variant not in allowed:
         raise ConfigError(
             f"unknown spectrum variant {variant!r} for source {source!r}; allowed: "
