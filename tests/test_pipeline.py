@@ -209,3 +209,23 @@ def test_memory_sink_matches_schema(small_config):
     for f in EVENT_FIELDS:
         assert arr[f.name].dtype == np.dtype(f.dtype)
     assert sink.attrs["/"]["n_events"] == 100
+
+
+def test_count_modes():
+    """'expected' writes round(expected); 'poisson' a reproducible Poisson draw around it."""
+    base = {"exposure": {"start_utc": "2031-01-01T00:00:00Z", "stop_utc": "2031-01-03T00:00:00Z"},
+            "sources": {"include": ["8B"]}, "interaction": {"threshold_mev": 5.0}}
+    cfg_e = make_config({**base, "run": {"count_mode": "expected", "events": 1}})
+    sink, summary = memory_run_mode(cfg_e, seed=1)
+    assert summary.n_events == round(summary.expected_events)
+    cfg_p = make_config({**base, "run": {"count_mode": "poisson", "events": 1}})
+    a = memory_run_mode(cfg_p, seed=1)[1].n_events
+    b = memory_run_mode(cfg_p, seed=1)[1].n_events
+    counts = {memory_run_mode(cfg_p, seed=s)[1].n_events for s in range(2, 8)}
+    assert a == b
+    assert len(counts) > 1       # Poisson spread (expected ≈ 54; P(all six equal) < 1e-7)
+
+
+def memory_run_mode(cfg, seed):
+    sink = MemorySink(EVENT_FIELDS)
+    return sink, generate(cfg, seed=seed, sink=sink)
