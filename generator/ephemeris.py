@@ -107,18 +107,16 @@ def sun_equatorial(t_unix: np.ndarray | float) -> tuple[np.ndarray, np.ndarray, 
     """
     n = _days_from_j2000(_check_times(t_unix))
     mean_lon = np.remainder(280.460 + 0.9856474 * n, 360.0) * _DEG
-    g = np.remainder(357.528 + 0.9856003 * n, 360.0) * _DEG
+    g = _mean_anomaly(n)
     sin_g = np.sin(g)
     cos_g = np.cos(g)
     sin_2g = 2.0 * sin_g * cos_g
-    cos_2g = 2.0 * cos_g * cos_g - 1.0
     ecl_lon = mean_lon + (1.915 * sin_g + 0.020 * sin_2g) * _DEG
     obliquity = (23.439 - 4.0e-7 * n) * _DEG
     sin_l = np.sin(ecl_lon)
     ra = np.arctan2(np.cos(obliquity) * sin_l, np.cos(ecl_lon))
     dec = np.arcsin(np.sin(obliquity) * sin_l)
-    distance = 1.00014 - 0.01671 * cos_g - 0.00014 * cos_2g
-    return ra, dec, distance
+    return ra, dec, _distance_au(cos_g)
 
 
 def sun_distance_au(t_unix: np.ndarray | float) -> np.ndarray:
@@ -135,7 +133,16 @@ def sun_distance_au(t_unix: np.ndarray | float) -> np.ndarray:
         R = 1.00014 − 0.01671 cos g − 0.00014 cos 2g in AU (Michalsky 1988).
     """
     n = _days_from_j2000(_check_times(t_unix))
-    cos_g = np.cos(np.remainder(357.528 + 0.9856003 * n, 360.0) * _DEG)
+    return _distance_au(np.cos(_mean_anomaly(n)))
+
+
+def _mean_anomaly(n: np.ndarray) -> np.ndarray:
+    """Mean anomaly g = 357.528° + 0.9856003° n in radians (Michalsky 1988), n days from J2000."""
+    return np.remainder(357.528 + 0.9856003 * n, 360.0) * _DEG
+
+
+def _distance_au(cos_g: np.ndarray) -> np.ndarray:
+    """R = 1.00014 − 0.01671 cos g − 0.00014 cos 2g in AU (Michalsky 1988)."""
     return 1.00014 - 0.01671 * cos_g - 0.00014 * (2.0 * cos_g * cos_g - 1.0)
 
 

@@ -128,15 +128,7 @@ def test_flavour_mix_follows_probabilities(sample):
     plan = summary.plan
     sp = next(s for s in plan.sources if s.name == "8B")
     sel = ev["origin"] == sp.code
-    e_grid, pdf = sp.spectrum.grid()
-    from generator.pipeline import _sigma_matrix
-
-    sig = _sigma_matrix(plan.recoil, e_grid, plan.pdgs)
-    centres = 0.5 * (plan.zenith_edges[:-1] + plan.zenith_edges[1:])
-    frac = np.zeros(3)
-    for c, w in zip(centres, plan.zenith_weights, strict=True):
-        p = plan.flavour.probabilities("8B", e_grid, np.full(e_grid.size, c))
-        frac += w * np.trapezoid(pdf[:, None] * p * sig, e_grid, axis=0)
+    frac = _zenith_flavour_rates(plan, "8B").sum(axis=0)
     frac /= frac.sum()
     obs = np.array([(ev["nu_pdg"][sel] == k).sum() for k in (12, 14, 16)])
     p = stats.chisquare(obs, frac * obs.sum()).pvalue
@@ -231,16 +223,24 @@ def memory_run_mode(cfg, seed):
     return sink, generate(cfg, seed=seed, sink=sink)
 
 
-def _expected_night_fraction(plan, name="8B"):
-    sp = next(s for s in plan.sources if s.name == name)
-    e_grid, pdf = sp.spectrum.grid()
+def _zenith_flavour_rates(plan, name):
+    """Rate per cos-zenith bin and flavour, ∝ w_b ∫ f(E) P_α(E, c_b) σ_α(E) dE, shape (bins, 3)."""
     from generator.pipeline import _sigma_matrix
 
+    sp = next(s for s in plan.sources if s.name == name)
+    e_grid, pdf = sp.spectrum.grid()
     sig = _sigma_matrix(plan.recoil, e_grid, plan.pdgs)
     centres = 0.5 * (plan.zenith_edges[:-1] + plan.zenith_edges[1:])
-    rate = np.array([w * np.trapezoid(pdf * np.einsum(
-        "ij,ij->i", plan.flavour.probabilities(name, e_grid, np.full(e_grid.size, c)), sig),
-        e_grid) for c, w in zip(centres, plan.zenith_weights, strict=True)])
+    rows = []
+    for c, w in zip(centres, plan.zenith_weights, strict=True):
+        p = plan.flavour.probabilities(name, e_grid, np.full(e_grid.size, c))
+        rows.append(w * np.trapezoid(pdf[:, None] * p * sig, e_grid, axis=0))
+    return np.array(rows)
+
+
+def _expected_night_fraction(plan, name="8B"):
+    rate = _zenith_flavour_rates(plan, name).sum(axis=1)
+    centres = 0.5 * (plan.zenith_edges[:-1] + plan.zenith_edges[1:])
     return rate[centres < 0].sum() / rate.sum()
 
 
