@@ -17,8 +17,6 @@ Physics model
 
 from __future__ import annotations
 
-import hashlib
-import json
 import math
 import os
 from collections.abc import Sequence
@@ -27,7 +25,9 @@ from pathlib import Path
 
 import numpy as np
 
+from generator import cache as _cache
 from generator import earth, solar_model
+from generator.cache import CacheRejected, cached_arrays
 from generator.constants import MATTER_POTENTIAL_EV_PER_NA
 from generator.errors import ConfigError
 
@@ -223,11 +223,6 @@ def vacuum_flavour_probs(mass_fractions: np.ndarray, p: OscillationParams) -> np
     return np.asarray(mass_fractions, dtype=float) @ u2.T
 
 
-def _default_cache_dir() -> Path:
-    env = os.environ.get("SUNRECOIL_CACHE")
-    return Path(env) if env else Path.home() / ".cache" / "sunrecoil"
-
-
 class FlavourModel:
     """Flavour probabilities at the detector for the configured sources (tables built once).
 
@@ -301,7 +296,7 @@ class FlavourModel:
         self.earth = bool(earth)
         self.solar_profile = solar_profile
         self.ocean_as_crust = bool(ocean_as_crust)
-        self.cache_dir = Path(cache_dir) if cache_dir is not None else _default_cache_dir()
+        self.cache_dir = Path(cache_dir) if cache_dir is not None else _cache.cache_dir()
         n_e = int(math.ceil((e_max - e_min) / energy_step - 1e-9)) + 1
         self._energy = np.linspace(e_min, e_max, n_e)
         self._cosz = np.linspace(-1.0, 0.0, int(n_cos_zenith))
@@ -312,17 +307,17 @@ class FlavourModel:
             self._build_source(s)
 
     # -- construction -----------------------------------------------------------------
-    def _cache_key(self) -> str:
-        payload = {
-            "version": _TABLE_VERSION,
+    def _cache_key(self) -> dict:
+        """Every input of the night table (the full key stored inside the cache entry)."""
+        return {
+            "table": _TABLE_VERSION,
             "params": asdict(self.params),
-            "energy": [self._energy[0], self._energy[-1], len(self._energy)],
-            "cosz": len(self._cosz),
+            "energy": self._energy,
+            "cosz": self._cosz,
             "depth_m": self.depth_m,
             "ocean_as_crust": self.ocean_as_crust,
             "y_e": [earth.Y_E_CORE, earth.Y_E_MANTLE],
         }
-        return hashlib.sha256(json.dumps(payload, sort_keys=True).encode()).hexdigest()[:20]
 
     def _build_night_table(self) -> np.ndarray:
         n_e, n_z = len(self._energy), len(self._cosz)
@@ -331,26 +326,23 @@ class FlavourModel:
         if not self.earth:
             u2 = (np.abs(pmns_matrix(self.params)) ** 2).T  # [i, α]
             return np.broadcast_to(u2, (n_e, n_z, 3, 3)).copy()
-        path = self.cache_dir / f"earth_{self._cache_key()}.npz"
-        if path.is_file():
-            try:
-                with np.load(path) as f:
-                    table = f["p_earth"]
-                if table.shape == (n_e, n_z, 3, 3):
-                    return table
-            except (OSError, ValueError, KeyError):
-                pass
-        table = earth.smoothed_transition_table(
-            self._energy, self._cosz, self.params, self.depth_m, ocean_as_crust=self.ocean_as_crust
-        )
-        try:
-            self.cache_dir.mkdir(parents=True, exist_ok=True)
-            tmp = path.with_suffix(f".{os.getpid()}.tmp.npz")
-            np.savez(tmp, p_earth=table)
-            os.replace(tmp, path)
-        except OSError:
-            pass  # caching is an optimisation only
-        return table
+
+        def build() -> dict[str, np.ndarray]:
+            return {"p_earth": earth.smoothed_transition_table(
+                self._energy, self._cosz, self.params, self.depth_m,
+                ocean_as_crust=self.ocean_as_crust)}
+
+        def validate(arrays: dict[str, np.ndarray]) -> None:
+            t = arrays["p_earth"]
+            if t.shape != (n_e, n_z, 3, 3) or t.dtype != np.float64:
+                raise CacheRejected(f"p_earth has shape {t.shape} and dtype {t.dtype}")
+            if not np.all(np.isfinite(t)) or t.min() < 0.0 or t.max() > 1.0:
+                raise CacheRejected("p_earth has values outside [0, 1]")
+            if np.max(np.abs(t.sum(axis=-1) - 1.0)) > 1e-9:
+                raise CacheRejected("p_earth rows do not sum to 1 within 1e-9")
+
+        return cached_arrays("earth", self._cache_key(), build, validate,
+                             directory=self.cache_dir)["p_earth"]
 
     def _build_source(self, source: str) -> None:
         n_z = len(self._cosz)
