@@ -14,7 +14,9 @@ and what is allowed.
 
 from __future__ import annotations
 
+import difflib
 import math
+import os
 import tomllib
 from dataclasses import dataclass, fields
 from importlib import resources
@@ -22,6 +24,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import ConfigError
+from .userfiles import clip, read_user_text
 
 __all__ = [
     "Config",
@@ -167,7 +170,13 @@ _MISSING = object()
 
 
 def _fmt(value: Any) -> str:
-    return repr(value)
+    return clip(value)
+
+
+def _suggest(word: str, allowed: Any) -> str:
+    """' (did you mean X?)' for the closest allowed name, or ''."""
+    close = difflib.get_close_matches(str(word), [str(a) for a in allowed], n=1, cutoff=0.6)
+    return f" (did you mean {close[0]!r}?)" if close else ""
 
 
 class _Section:
@@ -231,8 +240,10 @@ class _Section:
     def finish(self) -> None:
         unknown = sorted(set(self.table) - self.used)
         if unknown:
+            hint = _suggest(unknown[0], self.used) if len(unknown) == 1 else ""
             raise ConfigError(
-                f"{self.path}: unknown key(s) {unknown}; allowed keys: {sorted(self.used)}"
+                f"{self.path}: unknown key(s) {clip(unknown)}{hint}; allowed keys: "
+                f"{sorted(self.used)}"
             )
 
 
@@ -240,7 +251,11 @@ def _check_number(path: str, v: Any, lo: float | None, hi: float | None,
                   lo_open: bool = False) -> float:
     if isinstance(v, bool) or not isinstance(v, int | float):
         raise ConfigError(f"{path}: expected a number, got {_fmt(v)}")
-    v = float(v)
+    try:
+        v = float(v)
+    except OverflowError:
+        raise ConfigError(f"{path}: {_fmt(v)} is out of range (too large for a number)"
+                          ) from None
     if not math.isfinite(v):
         raise ConfigError(f"{path}: {v} is not finite; a finite number is required")
     if lo is not None and (v < lo or (lo_open and v == lo)):
@@ -503,7 +518,8 @@ def parse_config(data: dict, base_dir: Path | None = None, source_file: str | No
         if k in RESERVED_SECTIONS:
             raise ConfigError(f"{k}: section not supported yet ({RESERVED_SECTIONS[k]})")
         if k not in known:
-            raise ConfigError(f"{k}: unknown section; allowed sections: {list(known)}")
+            raise ConfigError(f"{clip(k)}: unknown section{_suggest(k, known)}; allowed "
+                              f"sections: {list(known)}")
     for k in known:
         if k not in data:
             raise ConfigError(f"{k}: required section is missing")
@@ -531,15 +547,21 @@ def load_config(path: str | Path | None = None) -> Config:
     if path is None:
         return parse_config(default, None, None)
     p = Path(path)
-    try:
-        text = p.read_text("utf-8")
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(f"config file {str(p)!r}: cannot be read ({exc})") from None
+    text = read_user_text(p, "config file", ConfigError)
     try:
         user = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"config file {str(p)!r}: invalid TOML ({exc})") from None
-    return parse_config(_merge(default, user), p.resolve().parent, str(p))
+        raise ConfigError(f"config file {clip(str(p))}: invalid TOML ({exc})") from None
+    except RecursionError:
+        raise ConfigError(f"config file {clip(str(p))}: tables or arrays nested too deeply"
+                          ) from None
+    # relative paths inside the file are relative to the folder the file is named in (as
+    # written: a symbolic link to the file is not resolved)
+    base = Path(os.path.abspath(p)).parent
+    try:
+        return parse_config(_merge(default, user), base, str(p))
+    except RecursionError:
+        raise ConfigError(f"config file {clip(str(p))}: values nested too deeply") from None
 
 
 # --------------------------------------------------------------------------- TOML output
@@ -551,14 +573,33 @@ def _toml_value(v: Any) -> str:
     if isinstance(v, float):
         return repr(v)
     if isinstance(v, str):
-        return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
+        return _toml_string(v)
     if isinstance(v, tuple | list):
         return "[" + ", ".join(_toml_value(x) for x in v) + "]"
     raise TypeError(f"cannot write {v!r} as TOML")
 
 
+_TOML_ESCAPES = {"\\": "\\\\", '"': '\\"', "\b": "\\b", "\t": "\\t", "\n": "\\n",
+                 "\f": "\\f", "\r": "\\r"}
+
+
+def _toml_string(v: str) -> str:
+    """A TOML basic string: backslash, quote and every control character escaped (TOML 1.0)."""
+    out = []
+    for ch in v:
+        if ch in _TOML_ESCAPES:
+            out.append(_TOML_ESCAPES[ch])
+        elif ord(ch) < 0x20 or ord(ch) == 0x7F:
+            out.append(f"\\u{ord(ch):04X}")
+        else:
+            out.append(ch)
+    return '"' + "".join(out) + '"'
+
+
 def _key(k: str) -> str:
-    return k if k.replace("_", "").replace("-", "").isalnum() and not k[0].isdigit() else f'"{k}"'
+    """A bare TOML key when it only has A–Z, a–z, 0–9, '_' and '-'; else a quoted key."""
+    bare = k and all(c.isascii() and (c.isalnum() or c in "_-") for c in k)
+    return k if bare else _toml_string(k)
 
 
 def to_toml(cfg: Config) -> str:

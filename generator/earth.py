@@ -147,8 +147,8 @@ def earth_electron_density(r_km: np.ndarray | float, ocean_as_crust: bool = Fals
 
 
 def _detector_radius(depth_m: float) -> float:
-    if not (np.isfinite(depth_m) and 0.0 <= depth_m < 10_000.0):
-        raise ConfigError(f"depth_m: {depth_m!r} is not allowed; need 0 <= depth_m < 10000 m")
+    if not (np.isfinite(depth_m) and 0.0 <= depth_m <= 10_000.0):
+        raise ConfigError(f"depth_m: {depth_m!r} is not allowed; need 0 <= depth_m <= 10000 m")
     return EARTH_RADIUS_KM - depth_m * 1e-3
 
 

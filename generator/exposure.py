@@ -27,6 +27,7 @@ import numpy as np
 
 from .ephemeris import SunTable, sun_distance_au
 from .errors import ConfigError, DataFileError
+from .userfiles import MAX_TABLE_ROWS, clip, read_user_text
 
 __all__ = [
     "MAX_UNIX",
@@ -81,18 +82,18 @@ def parse_utc(text: str, key: str) -> float:
     """
     allowed = "an ISO 8601 UTC time such as '2030-01-01T00:00:00Z', between 1900 and 2200"
     if not isinstance(text, str):
-        raise ConfigError(f"{key} = {text!r}: expected {allowed}")
+        raise ConfigError(f"{key} = {clip(text)}: expected {allowed}")
     try:
         stamp = _dt.datetime.fromisoformat(text.strip())
     except ValueError:
-        raise ConfigError(f"{key} = {text!r}: not {allowed}") from None
+        raise ConfigError(f"{key} = {clip(text)}: not {allowed}") from None
     if stamp.tzinfo is None:
         stamp = stamp.replace(tzinfo=_dt.UTC)
     elif stamp.utcoffset() != _dt.timedelta(0):
-        raise ConfigError(f"{key} = {text!r}: has a non-zero UTC offset; give {allowed}")
+        raise ConfigError(f"{key} = {clip(text)}: has a non-zero UTC offset; give {allowed}")
     seconds = (stamp - _EPOCH).total_seconds()
     if not MIN_UTC <= seconds <= MAX_UTC:
-        raise ConfigError(f"{key} = {text!r}: outside the allowed range; give {allowed}")
+        raise ConfigError(f"{key} = {clip(text)}: outside the allowed range; give {allowed}")
     return seconds
 
 
@@ -196,29 +197,27 @@ def load_run_list(path: str | os.PathLike[str]) -> np.ndarray:
     DataFileError
         Naming the file, the line number and the problem.
     """
-    name = os.fspath(path)
-    try:
-        with open(name, encoding="utf-8", newline="") as handle:
-            lines = handle.read().splitlines()
-    except (OSError, UnicodeDecodeError) as exc:
-        raise DataFileError(f"run list {name!r}: cannot be read ({exc})") from None
+    name = clip(os.fspath(path))
+    lines = read_user_text(path, "run list").splitlines()
     rows: list[tuple[int, list[str]]] = []
     for number, line in enumerate(lines, start=1):
         if line.strip() and not line.lstrip().startswith("#"):
             rows.append((number, next(csv.reader([line]))))
+            if len(rows) > MAX_TABLE_ROWS + 1:
+                raise DataFileError(f"run list {name}: more than {MAX_TABLE_ROWS} runs")
     if not rows:
-        raise DataFileError(f"run list {name!r}: empty; expected header 'start_utc,stop_utc'")
+        raise DataFileError(f"run list {name}: empty; expected header 'start_utc,stop_utc'")
     number, header = rows[0]
     if tuple(cell.strip() for cell in header) != RUN_LIST_COLUMNS:
         raise DataFileError(
-            f"run list {name!r}, line {number}: header {','.join(header)!r}; "
-            f"expected exactly the columns {','.join(RUN_LIST_COLUMNS)!r}"
+            f"run list {name}, line {number}: not the header line; expected exactly the "
+            f"columns {','.join(RUN_LIST_COLUMNS)!r} (is this a run list?)"
         )
     if len(rows) == 1:
-        raise DataFileError(f"run list {name!r}: no runs after the header")
+        raise DataFileError(f"run list {name}: no runs after the header")
     runs = np.empty((len(rows) - 1, 2), dtype=np.float64)
     for i, (number, cells) in enumerate(rows[1:]):
-        where = f"run list {name!r}, line {number}"
+        where = f"run list {name}, line {number}"
         if len(cells) != 2:
             raise DataFileError(f"{where}: {len(cells)} columns, expected 2 (start_utc,stop_utc)")
         try:

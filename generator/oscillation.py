@@ -283,8 +283,8 @@ class FlavourModel:
                 raise ConfigError(f"sources: unknown source {s!r}; allowed: {solar_model.SOURCES}")
         if not (math.isfinite(latitude_deg) and -90.0 <= latitude_deg <= 90.0):
             raise ConfigError(f"detector.latitude_deg: {latitude_deg!r} not in [-90, 90]")
-        if not (math.isfinite(depth_m) and 0.0 <= depth_m < 10_000.0):
-            raise ConfigError(f"detector.depth_m: {depth_m!r}; need 0 <= depth_m < 10000 m")
+        if not (math.isfinite(depth_m) and 0.0 <= depth_m <= 10_000.0):
+            raise ConfigError(f"detector.depth_m: {depth_m!r}; need 0 <= depth_m <= 10000 m")
         if not (math.isfinite(e_min) and math.isfinite(e_max) and 0.0 < e_min < e_max):
             raise ConfigError(f"e_min/e_max: ({e_min!r}, {e_max!r}); need 0 < e_min < e_max (MeV)")
         if not (energy_step > 0.0 and n_cos_zenith >= 3):

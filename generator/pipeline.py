@@ -201,14 +201,31 @@ def build_plan(cfg: Config) -> RunPlan:
     expected = np.array([p.expected_events for p in plans])
     total = float(expected.sum())
     if not total > 0.0:
-        raise ConfigError(
-            "interaction.threshold_mev: no source can produce a recoil above "
-            f"{ic.threshold_mev} MeV; lower the threshold or include other sources"
-        )
+        raise _no_events_error(plans, n_e, exposure, ic.threshold_mev)
     cdf = np.cumsum(expected) / total
     cdf[-1] = 1.0
     return RunPlan(cfg, medium, fid, n_e, exposure, xs, recoil, flavour, pdgs, plans, total,
                    cdf, edges, wz)
+
+
+def _no_events_error(plans: list[SourcePlan], n_e: float, exposure: Exposure,
+                     threshold: float) -> ConfigError:
+    """The configuration error that explains why the expected count is zero or not finite."""
+    expected = [p.expected_events for p in plans]
+    if not all(np.isfinite(expected)):
+        bad = [p.name for p in plans if not np.isfinite(p.expected_events)]
+        return ConfigError(f"sources: the expected count of {bad} is not finite; check "
+                           "sources.scale, sources.flux_override and the interaction settings")
+    if not n_e > 0.0:
+        return ConfigError(f"detector: the target has {n_e} electrons; the fiducial volume or "
+                           "target mass must be positive")
+    if not exposure.live_seconds > 0.0:
+        return ConfigError("exposure: the live time is zero")
+    if all(p.flux == 0.0 for p in plans):
+        return ConfigError("sources: every included source has zero flux (sources.scale or "
+                           "sources.flux_override); give at least one a positive flux")
+    return ConfigError(f"interaction.threshold_mev: no source can produce a recoil above "
+                       f"{threshold} MeV; lower the threshold or include other sources")
 
 
 def _sigma_matrix(recoil: RecoilSampler, energy: np.ndarray, pdgs: tuple[int, ...]

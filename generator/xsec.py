@@ -64,7 +64,7 @@ MAGNETIC_PREFACTOR_CM2: float = math.pi * constants.CLASSICAL_ELECTRON_RADIUS_CM
 #: Unit of XsecModel.magnetic_moment, in Bohr magnetons.
 _MU_UNIT = 1e-11
 _MAX_MU = 1e4  # i.e. 1e-7 μ_B, far above every experimental limit
-_MAX_EPS = 5.0
+_MAX_EPS = 10.0  # the limit of interaction.nsi_eps_l/r in the configuration
 
 # Gauss–Legendre rule for the radiative quadrature (see _quad_nodes).
 _GL_X, _GL_W = leggauss(48)
@@ -95,7 +95,7 @@ class XsecModel:
     def __post_init__(self) -> None:
         if self.corrections not in CORRECTIONS:
             raise ConfigError(
-                f"xsec.corrections = {self.corrections!r}; allowed: {', '.join(CORRECTIONS)}"
+                f"interaction.corrections = {self.corrections!r}; allowed: {', '.join(CORRECTIONS)}"
             )
         s2 = self.sin2_theta_w
         if not (isinstance(s2, int | float) and math.isfinite(s2) and 0.0 < s2 < 0.5):
@@ -103,7 +103,7 @@ class XsecModel:
         mu = self.magnetic_moment
         if not (isinstance(mu, int | float) and math.isfinite(mu) and 0.0 <= mu <= _MAX_MU):
             raise ConfigError(
-                f"xsec.magnetic_moment = {mu!r} (units of 1e-11 mu_B); allowed: finite, "
+                f"interaction.magnetic_moment = {mu!r} (units of 1e-11 mu_B); allowed: finite, "
                 f"0 <= value <= {_MAX_MU:g}"
             )
         for name in ("nsi_eps_l", "nsi_eps_r"):
@@ -114,8 +114,8 @@ class XsecModel:
             )
             if not ok:
                 raise ConfigError(
-                    f"xsec.{name} = {eps!r}; allowed: three finite numbers (ee, mumu, tautau) "
-                    f"with |value| <= {_MAX_EPS:g}"
+                    f"interaction.{name} = {eps!r}; allowed: three finite numbers "
+                    f"(ee, mumu, tautau) with |value| <= {_MAX_EPS:g}"
                 )
             object.__setattr__(self, name, tuple(float(x) for x in eps))
 

@@ -138,7 +138,7 @@ def test_load_run_list_rejects(tmp_path, case):
 def test_load_run_list_unreadable(tmp_path):
     with pytest.raises(DataFileError, match="missing.csv"):
         load_run_list(tmp_path / "missing.csv")
-    with pytest.raises(DataFileError, match="cannot be read"):
+    with pytest.raises(DataFileError, match="is a folder"):
         load_run_list(tmp_path)  # a directory
     binary = tmp_path / "binary.csv"
     binary.write_bytes(b"\xff\xfe\x00start")

@@ -375,7 +375,7 @@ def test_custom_file_errors(tmp_path, content, fragment):
 
 
 def test_custom_missing_file(tmp_path):
-    with pytest.raises(DataFileError, match="cannot read"):
+    with pytest.raises(DataFileError, match="cannot be read"):
         load_custom_spectrum(tmp_path / "nope.txt", "x")
 
 

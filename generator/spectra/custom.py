@@ -15,6 +15,7 @@ import numpy as np
 
 from generator.errors import DataFileError
 from generator.spectra.spectrum import Spectrum
+from generator.userfiles import MAX_TABLE_ROWS, clip, read_user_text
 
 __all__ = ["load_custom_spectrum"]
 
@@ -45,13 +46,9 @@ def load_custom_spectrum(path: str | os.PathLike[str], name: str) -> Spectrum:
         problem.
     """
     if not isinstance(name, str) or not name.strip():
-        raise DataFileError(f"custom spectrum {os.fspath(path)!r}: name must be non-empty")
-    where = os.fspath(path)
-    try:
-        with open(where, encoding="utf-8") as fh:
-            text = fh.read()
-    except (OSError, UnicodeDecodeError) as exc:
-        raise DataFileError(f"custom spectrum file {where!r}: cannot read ({exc})") from exc
+        raise DataFileError(f"custom spectrum {clip(os.fspath(path))}: name must be non-empty")
+    where = f"custom spectrum file {clip(os.fspath(path))}"
+    text = read_user_text(path, "custom spectrum file")
     energies: list[float] = []
     density: list[float] = []
     for lineno, raw in enumerate(text.splitlines(), start=1):
@@ -62,14 +59,14 @@ def load_custom_spectrum(path: str | os.PathLike[str], name: str) -> Spectrum:
         if len(fields) != 2:
             raise DataFileError(
                 f"{where}, line {lineno}: expected 2 columns (energy MeV, density), got "
-                f"{len(fields)}: {raw!r}"
+                f"{len(fields)}"
             )
         try:
             e, d = float(fields[0]), float(fields[1])
         except ValueError:
-            raise DataFileError(f"{where}, line {lineno}: non-numeric value in {raw!r}") from None
+            raise DataFileError(f"{where}, line {lineno}: non-numeric value") from None
         if not (math.isfinite(e) and math.isfinite(d)):
-            raise DataFileError(f"{where}, line {lineno}: non-finite value (NaN/inf) in {raw!r}")
+            raise DataFileError(f"{where}, line {lineno}: non-finite value (NaN/inf)")
         if e < 0.0:
             raise DataFileError(f"{where}, line {lineno}: negative energy {e} MeV")
         if d < 0.0:
@@ -81,6 +78,8 @@ def load_custom_spectrum(path: str | os.PathLike[str], name: str) -> Spectrum:
             )
         energies.append(e)
         density.append(d)
+        if len(energies) > MAX_TABLE_ROWS:
+            raise DataFileError(f"{where}: more than {MAX_TABLE_ROWS} data rows")
     if len(energies) < 2:
         raise DataFileError(f"{where}: need at least 2 data rows, found {len(energies)}")
     e_arr = np.asarray(energies)
