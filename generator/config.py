@@ -374,10 +374,14 @@ def _parse_sources(t: Any, base_dir: Path | None) -> SourcesConfig:
             raise ConfigError(
                 f"sources.custom[{i}].name: {name!r} clashes with a standard source name"
             )
+        if len(name) > 64 or name != name.strip() or any(not c.isprintable() for c in name):
+            raise ConfigError(f"sources.custom[{i}].name: {_fmt(name)}; allowed: 1–64 printable "
+                              "characters (any script) without leading or trailing spaces")
         customs.append(CustomSourceConfig(name, str(p), flux, region))
     names = [c.name for c in customs]
     if len(set(names)) != len(names):
-        raise ConfigError(f"sources.custom: duplicate names {names}")
+        raise ConfigError(f"sources.custom: duplicate names {_fmt(names)}; each custom source "
+                          "needs its own name")
     for i, name in enumerate(include):
         if name not in KNOWN_SOURCES:
             raise ConfigError(

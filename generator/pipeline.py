@@ -465,8 +465,8 @@ def provenance(plan: RunPlan, entropy: int, n: int) -> dict[str, Any]:
 
 
 def _write_tables(sink: Any, plan: RunPlan) -> None:
-    names = np.array([sp.name for sp in plan.sources], dtype="S16")
-    sink.write_table("sources/name", names, "", "source names (trade names)")
+    names = np.array([sp.name for sp in plan.sources], dtype=object)
+    sink.write_table("sources/name", names, "", "source names (UTF-8)")
     sink.write_table("sources/code", np.array([sp.code for sp in plan.sources], np.int16), "",
                      "origin code of each source")
     sink.write_table("sources/flux", np.array([sp.flux for sp in plan.sources]), "cm^-2 s^-1",
@@ -559,7 +559,7 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         codes = [sp.code for sp in plan.sources]
         sink.set_field_attrs("origin", {"codes": np.array(codes, np.int16),
                                         "names": np.array([sp.name for sp in plan.sources],
-                                                          dtype="S16")})
+                                                          dtype=object)})
         _write_tables(sink, plan)
         sink.set_attrs(provenance(plan, entropy, n_total))
         result = sink.commit()

@@ -278,3 +278,37 @@ def test_nsi_limit_message_names_the_config_key():
     XsecModel(nsi_eps_l=(10.0, 0.0, 0.0))  # the documented limit is allowed
     with pytest.raises(ConfigError, match=r"interaction\.nsi_eps_l.*10"):
         XsecModel(nsi_eps_l=(10.5, 0.0, 0.0))
+
+
+# --------------------------------------------------------------------------- source names
+def _custom_config(tmp_path, names):
+    spec = tmp_path / "s.txt"
+    spec.write_text("4.0 1.0\n12.0 0.0\n")
+    blocks = "".join(f'[[sources.custom]]\nname = {to_toml_string(n)}\nspectrum_file = "s.txt"\n'
+                     f"flux = 1e6\n" for n in names)
+    f = tmp_path / "c.toml"
+    f.write_text('[sources]\ninclude = ["8B"]\n' + blocks +
+                 '[run]\nevents = 500\nchunk_size = 500\nseed = 3\n')
+    return f
+
+
+def test_long_and_non_ascii_source_names_survive_the_file(tmp_path):
+    """Names longer than 16 bytes and outside ASCII are stored whole (variable-length UTF-8)."""
+    from generator.io import EventFile
+    from generator.pipeline import generate
+
+    names = ["a-rather-long-custom-source-name-1", "a-rather-long-custom-source-name-2",
+             "Quelle ⁸B-ähnlich"]
+    cfg = load_config(_custom_config(tmp_path, names))
+    out = generate(cfg, tmp_path / "o.h5").path
+    with EventFile(out) as ev:
+        got = set(ev.origin_names().values())
+        table = [x.decode() if isinstance(x, bytes) else x for x in ev._f["sources/name"][:]]
+    assert set(names) <= got and set(names) <= set(table)
+
+
+@pytest.mark.parametrize("names", [["same", "same"], [" padded"], ["x" * 65], ["tab\there"]])
+def test_bad_source_names_are_refused_up_front(tmp_path, names):
+    with pytest.raises(ConfigError, match=r"sources\.custom") as err:
+        load_config(_custom_config(tmp_path, names))
+    _one_line(err.value)

@@ -10,8 +10,16 @@ import h5py
 import numpy as np
 
 from ..errors import DataFileError
+from .schema import LAYOUT_VERSION
 
-__all__ = ["EventFile", "read_events"]
+__all__ = ["EventFile", "read_events", "REQUIRED_ATTRS"]
+
+#: Root attributes every sunrecoil event file carries (checked when a file is opened).
+REQUIRED_ATTRS = ("tool_version", "layout_version", "n_events", "seed_entropy", "config_toml",
+                  "expected_events")
+
+#: Most events a file may declare (a larger shape is a damaged or hostile file).
+MAX_EVENTS = 1 << 40
 
 
 def _ensure_plugins() -> None:
@@ -38,10 +46,50 @@ class EventFile:
             self._f = h5py.File(self.path, "r")
         except (OSError, ValueError) as exc:
             raise DataFileError(f"{str(self.path)!r}: not a readable HDF5 file ({exc})") from None
-        if "events" not in self._f:
+        try:
+            self._validate()
+        except BaseException:
             self._f.close()
-            raise DataFileError(f"{str(self.path)!r}: no /events group; not a sunrecoil file")
+            raise
         self.events = self._f["events"]
+
+    def _validate(self) -> None:
+        """Refuse files that are not complete, consistent sunrecoil event files."""
+        where = repr(str(self.path))
+        f = self._f
+        if not isinstance(f.get("events", getlink=True), h5py.HardLink) or not isinstance(
+                f.get("events"), h5py.Group):
+            raise DataFileError(f"{where}: no /events group; not a sunrecoil event file")
+        if f.attrs.get("tool") not in (None, "sunrecoil", b"sunrecoil") or \
+                "tool_version" not in f.attrs:
+            raise DataFileError(f"{where}: has an /events group but is not a sunrecoil event "
+                                "file (no sunrecoil provenance attributes)")
+        missing = [k for k in REQUIRED_ATTRS if k not in f.attrs]
+        if missing:
+            raise DataFileError(f"{where}: required attribute(s) {missing} missing; the file is "
+                                "incomplete or damaged")
+        layout = str(_decode(f.attrs["layout_version"]))
+        if not layout.isdigit() or not 1 <= int(layout) <= int(LAYOUT_VERSION):
+            raise DataFileError(f"{where}: layout_version {layout[:20]!r} is not known to this "
+                                f"version (reads 1 … {LAYOUT_VERSION}); use a newer sunrecoil")
+        try:
+            n_attr = int(f.attrs["n_events"])
+        except (TypeError, ValueError):
+            raise DataFileError(f"{where}: attribute n_events is not an integer") from None
+        lengths = {}
+        for name, obj in f["events"].items():
+            if not isinstance(obj, h5py.Dataset) or obj.ndim < 1:
+                raise DataFileError(f"{where}: events/{name} is not an event dataset")
+            lengths[name] = int(obj.shape[0])
+        if not lengths:
+            raise DataFileError(f"{where}: /events holds no datasets")
+        if len(set(lengths.values())) != 1:
+            raise DataFileError(f"{where}: event datasets have different lengths "
+                                f"{dict(sorted(lengths.items()))}")
+        n = next(iter(lengths.values()))
+        if n != n_attr or not 0 <= n <= MAX_EVENTS:
+            raise DataFileError(f"{where}: n_events attribute {n_attr} does not match the "
+                                f"{n} rows of the event datasets")
 
     def __enter__(self) -> EventFile:
         return self
@@ -79,15 +127,38 @@ class EventFile:
         names = [_decode(n) for n in ds.attrs["names"]]
         return {int(c): str(n) for c, n in zip(codes, names, strict=True)}
 
-    def table(self, path: str) -> np.ndarray:
-        """An auxiliary table (e.g. ``flavour/day/8B``)."""
-        return self._f[path][()]
+    def table(self, path: str) -> np.ndarray | dict[str, Any]:
+        """An auxiliary table (e.g. ``sources/flux``), or a dict of tables for a group."""
+        obj = self._f.get(path)
+        if obj is None:
+            groups = sorted(k for k in self._f if k != "events")
+            raise DataFileError(f"{str(self.path)!r}: no table {path!r}; groups: {groups}")
+        if isinstance(obj, h5py.Group):
+            return {k: self.table(f"{path}/{k}") for k in obj}
+        return self._read_checked(obj, path, ())
+
+    def _read_checked(self, ds: h5py.Dataset, name: str, sel: Any) -> np.ndarray:
+        try:
+            return ds[sel]
+        except OSError as exc:
+            text = str(exc).lower()
+            if "fletcher32" in text or "checksum" in text or "filter returned failure" in text:
+                # every dataset is Fletcher-32 protected: a failing filter pipeline means the
+                # stored bytes were changed (the checksum or the decompressor caught it)
+                raise DataFileError(f"{str(self.path)!r}: checksum mismatch in {name}; the file "
+                                    "is damaged") from None
+            raise DataFileError(f"{str(self.path)!r}: cannot read {name} ({exc})") from None
 
     def read(self, fields: Sequence[str] | None = None, start: int = 0,
              stop: int | None = None) -> dict[str, np.ndarray]:
         """Read fields (default all) for events ``start:stop``."""
         names = list(fields) if fields is not None else self.fields
-        return {n: self.events[n][start:stop] for n in names}
+        unknown = [n for n in names if n not in self.events]
+        if unknown:
+            raise DataFileError(f"{str(self.path)!r}: no event field(s) {unknown}; fields: "
+                                f"{self.fields}")
+        return {n: self._read_checked(self.events[n], f"events/{n}", slice(start, stop))
+                for n in names}
 
     def iter_chunks(self, size: int = 1 << 20, fields: Sequence[str] | None = None
                     ) -> Iterator[dict[str, np.ndarray]]:

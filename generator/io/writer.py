@@ -60,7 +60,13 @@ def _attr_value(v: Any) -> Any:
         return "none"
     if isinstance(v, Mapping):
         raise TypeError("nested mappings are not stored as attributes")
+    if isinstance(v, np.ndarray) and v.dtype == object:
+        return np.array([str(x) for x in v.ravel()], dtype=_UTF8).reshape(v.shape)
     return v
+
+
+#: Variable-length UTF-8 strings (names of any length and script; any HDF5 reader decodes them).
+_UTF8 = h5py.string_dtype("utf-8")
 
 
 class HDF5Sink:
@@ -120,7 +126,12 @@ class HDF5Sink:
     def write_table(self, path: str, data: np.ndarray, units: str, description: str,
                     attrs: Mapping[str, Any] | None = None) -> None:
         """Store an auxiliary array (e.g. a probability table) at ``path`` with its unit."""
-        ds = self._file.create_dataset(path, data=np.asarray(data), fletcher32=True)
+        data = np.asarray(data)
+        if data.dtype == object:              # text: variable-length UTF-8 (HDF5 cannot
+            data = np.array([str(x) for x in data.ravel()], dtype=_UTF8).reshape(data.shape)
+            ds = self._file.create_dataset(path, data=data)   # checksum variable-length data)
+        else:
+            ds = self._file.create_dataset(path, data=data, fletcher32=True)
         ds.attrs["units"] = units
         ds.attrs["description"] = description
         for k, v in (attrs or {}).items():
