@@ -6,15 +6,17 @@ Exit status: 0 success, 1 the run failed, 2 bad input or usage (nothing written)
 from __future__ import annotations
 
 import argparse
+import decimal
 import logging
 import sys
 from collections.abc import Sequence
 from pathlib import Path
 
 from . import __version__
+from .config import MAX_EVENTS
 from .errors import InputError, SunrecoilError
 
-__all__ = ["main", "build_parser"]
+__all__ = ["main", "build_parser", "exact_int"]
 
 log = logging.getLogger("generator")
 
@@ -23,6 +25,26 @@ class _Parser(argparse.ArgumentParser):
     def error(self, message: str) -> None:  # argparse exits with 2 already; keep the text short
         self.print_usage(sys.stderr)
         self.exit(2, f"{self.prog}: error: {message}\n")
+
+
+def exact_int(text: str) -> int:
+    """Parse an integer argument: decimal, 0x/0o/0b, or exact scientific notation.
+
+    ``1e6`` and ``2.5e3`` are accepted because they are exact integers; ``1.5``, ``1e-3``,
+    ``inf`` and text are refused with a clear message.
+    """
+    t = text.strip().replace("_", "")
+    try:
+        return int(t, 0)
+    except ValueError:
+        pass
+    try:
+        d = decimal.Decimal(t)
+    except decimal.InvalidOperation:
+        raise argparse.ArgumentTypeError(f"{text[:40]!r} is not an integer") from None
+    if not d.is_finite() or d != d.to_integral_value() or abs(d.adjusted()) > 60:
+        raise argparse.ArgumentTypeError(f"{text[:40]!r} is not an exact integer")
+    return int(d)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -37,9 +59,11 @@ def build_parser() -> argparse.ArgumentParser:
                                    "CONFIG the embedded default detector is used.")
     g.add_argument("config", nargs="?", help="TOML configuration file (merged over the default)")
     g.add_argument("-o", "--output", help="output file (default: output.path of the config)")
-    g.add_argument("--events", type=int, help="number of events (overrides run.events and "
+    g.add_argument("--events", type=exact_int, help="number of events (overrides run.events and "
                                               "run.count_mode)")
-    g.add_argument("--seed", type=int, help="root seed (overrides run.seed; random if neither)")
+    g.add_argument("--seed", type=exact_int,
+                   help="root seed (overrides run.seed; random if neither); decimal, 0x… hex "
+                        "or exact scientific notation")
     g.add_argument("--force", action="store_true", help="overwrite an existing output file")
     g.add_argument("--quiet", action="store_true", help="no progress bar, warnings only")
 
@@ -62,8 +86,9 @@ def _cmd_generate(args: argparse.Namespace) -> int:
     from .config import load_config
     from .pipeline import generate
 
-    if args.events is not None and args.events < 1:
-        raise InputError(f"--events: {args.events} is not allowed; give a positive integer")
+    if args.events is not None and not 1 <= args.events <= MAX_EVENTS:
+        raise InputError(f"--events: {args.events} is not allowed; give an integer from 1 to "
+                         f"{MAX_EVENTS:.0e}")
     if args.seed is not None and not 0 <= args.seed < 2**128:
         raise InputError(f"--seed: {args.seed} is out of range; use 0 ≤ seed < 2**128")
     cfg = load_config(args.config)

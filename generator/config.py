@@ -40,6 +40,8 @@ __all__ = [
     "parse_config",
     "default_config_text",
     "to_toml",
+    "MAX_EVENTS",
+    "MAX_CHUNK_SIZE",
 ]
 
 KNOWN_SOURCES = ("pp", "pep", "hep", "7Be", "8B", "13N", "15O", "17F")
@@ -49,6 +51,11 @@ RESERVED_SECTIONS = {
 }
 COMPRESSIONS = ("blosc-lz4", "zstd", "lzf", "gzip", "none")
 COUNT_MODES = ("fixed", "expected", "poisson")
+#: Most events one run may produce (every count mode and --events).
+MAX_EVENTS = 10**12
+#: Largest run.chunk_size: events in flight cost about 540 bytes each (all fields plus the
+#: rejection candidates), so 2**22 events are about 2.3 GB.
+MAX_CHUNK_SIZE = 1 << 22
 #: Lowest generation threshold (MeV). Recoils below it need neutrinos under 0.08 MeV and
 #: atomic-binding corrections (keV scale) that the free-electron cross sections do not include.
 MIN_THRESHOLD_MEV = 0.02
@@ -454,10 +461,10 @@ def _parse_interaction(t: Any) -> InteractionConfig:
 def _parse_run(t: Any) -> RunConfig:
     s = _Section(t, "run")
     cfg = RunConfig(
-        events=s.integer("events", lo=1, hi=10**12),
+        events=s.integer("events", lo=1, hi=MAX_EVENTS),
         count_mode=s.string("count_mode", "fixed", choices=COUNT_MODES),
         seed=s.integer("seed", lo=0, hi=2**128 - 1, optional=True),
-        chunk_size=s.integer("chunk_size", 1 << 18, lo=1, hi=1 << 26),
+        chunk_size=s.integer("chunk_size", 1 << 18, lo=1, hi=MAX_CHUNK_SIZE),
     )
     s.finish()
     return cfg

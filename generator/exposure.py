@@ -36,6 +36,7 @@ __all__ = [
     "MIN_UTC",
     "RUN_LIST_COLUMNS",
     "Exposure",
+    "SunSegments",
     "check_intervals",
     "load_run_list",
     "parse_utc",
@@ -260,8 +261,9 @@ class Exposure:
         Total live time, s.
     mean_inverse_r2 : float
         Live-time average of (1 AU / r)², dimensionless.
-    table : SunTable
-        Sun direction and distance covering all live periods.
+    table : SunSegments
+        Sun direction and distance covering all live periods (gaps of a day or more are not
+        tabulated, so memory follows the live time, not the span of a run list).
     """
 
     def __init__(
@@ -276,9 +278,7 @@ class Exposure:
         cdf_step_s = float(cdf_step_s)
         if not (math.isfinite(cdf_step_s) and 0.0 < cdf_step_s <= 86_400.0):
             raise ConfigError(f"cdf_step_s = {cdf_step_s!r}: must be in (0, 86400] seconds")
-        self.table = SunTable(
-            self.intervals[0, 0], self.intervals[-1, 1], latitude_deg, longitude_deg, step_s
-        )
+        self.table = SunSegments(self.intervals, latitude_deg, longitude_deg, step_s)
         starts, widths = _split_intervals(self.intervals, cdf_step_s)
         self._cell_start = starts
         self._cell_width = widths
@@ -410,6 +410,62 @@ class Exposure:
             counts, _ = np.histogram(cos_zenith, bins=edges, weights=widths / distance**2)
             result += counts
         return result
+
+
+class SunSegments:
+    """Sun tables over groups of live periods, with the lookup of :class:`SunTable`.
+
+    Live periods separated by less than ``max_gap_s`` share one table; a longer gap starts a
+    new table, so the memory (16 bytes per ``step_s`` of tabulated time) follows the live time
+    rather than the span of a run list (a run list over two centuries with a few hours of live
+    time needs a few kB, not 2.7 GB).
+
+    Parameters
+    ----------
+    intervals : ndarray, shape (k, 2)
+        Sorted, non-overlapping live periods, UTC Unix seconds.
+    latitude_deg, longitude_deg : float
+        Site, degrees.
+    step_s : float
+        Grid spacing, seconds.
+    max_gap_s : float, optional
+        Gaps shorter than this (seconds, default one day) are tabulated through.
+    """
+
+    def __init__(self, intervals: np.ndarray, latitude_deg: float, longitude_deg: float,
+                 step_s: float = 60.0, max_gap_s: float = 86_400.0) -> None:
+        gaps = intervals[1:, 0] - intervals[:-1, 1]
+        cut = np.flatnonzero(gaps >= max_gap_s) + 1
+        first = np.concatenate([[0], cut])
+        last = np.concatenate([cut - 1, [len(intervals) - 1]])
+        self.tables = [SunTable(intervals[a, 0], intervals[b, 1], latitude_deg, longitude_deg,
+                                step_s) for a, b in zip(first, last, strict=True)]
+        self._starts = np.array([tb.t_start for tb in self.tables])
+        self.step_s = self.tables[0].step_s
+        self.n_nodes = sum(tb.n_nodes for tb in self.tables)
+        self.max_interpolation_error_deg = max(tb.max_interpolation_error_deg
+                                               for tb in self.tables)
+        self.interpolation_error_bound_deg = self.tables[0].interpolation_error_bound_deg
+
+    def lookup(self, t_unix: np.ndarray | float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Sun direction, cos-zenith and distance at times inside the tabulated periods.
+
+        See :meth:`generator.ephemeris.SunTable.lookup` (same units and shapes).
+        """
+        if len(self.tables) == 1:
+            return self.tables[0].lookup(t_unix)
+        t = np.atleast_1d(np.asarray(t_unix, dtype=np.float64))
+        seg = np.clip(np.searchsorted(self._starts, t, side="right") - 1, 0, None)
+        order = np.argsort(seg, kind="stable")
+        bounds = np.searchsorted(seg[order], np.arange(len(self.tables) + 1))
+        nu_dir = np.empty((t.size, 3))
+        cos_zenith = np.empty(t.size)
+        distance = np.empty(t.size)
+        for j, table in enumerate(self.tables):
+            sel = order[bounds[j]:bounds[j + 1]]
+            if sel.size:
+                nu_dir[sel], cos_zenith[sel], distance[sel] = table.lookup(t[sel])
+        return nu_dir, cos_zenith, distance
 
 
 def _check_count(n: int) -> int:

@@ -44,7 +44,7 @@ from typing import Any
 import numpy as np
 
 from . import __version__, kinematics, spectra
-from .config import Config, to_toml
+from .config import MAX_EVENTS, Config, to_toml
 from .constants import CODATA_EDITION_NOTE, SECONDS_PER_DAY
 from .errors import ConfigError
 from .exposure import Exposure, load_run_list, parse_utc
@@ -425,6 +425,11 @@ def _event_count(plan: RunPlan, entropy: int, n_events: int | None) -> int:
         return n_events
     if rc.count_mode == "fixed":
         return rc.events
+    if plan.expected_total > MAX_EVENTS:
+        raise ConfigError(
+            f"run.count_mode = {rc.count_mode!r}: the expected count {plan.expected_total:.4g} "
+            f"is above the limit of {MAX_EVENTS:.0e} events per run; reduce the exposure, the "
+            "detector or sources.scale, or use count_mode = 'fixed'")
     if rc.count_mode == "expected":
         return int(round(plan.expected_total))
     rng = np.random.default_rng(np.random.SeedSequence(entropy, spawn_key=COUNT_SPAWN_KEY))

@@ -7,6 +7,7 @@ import threading
 import tomllib
 from pathlib import Path
 
+import numpy as np
 import pytest
 from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
@@ -312,3 +313,79 @@ def test_bad_source_names_are_refused_up_front(tmp_path, names):
     with pytest.raises(ConfigError, match=r"sources\.custom") as err:
         load_config(_custom_config(tmp_path, names))
     _one_line(err.value)
+
+
+# --------------------------------------------------------------------------- bounded work
+def test_expected_count_mode_has_the_fixed_mode_ceiling(tmp_path):
+    msg = _gen_error_count(tmp_path, "expected")
+    assert "run.count_mode" in msg and "limit" in msg
+
+
+def test_poisson_count_mode_has_the_fixed_mode_ceiling(tmp_path):
+    msg = _gen_error_count(tmp_path, "poisson")
+    assert "run.count_mode" in msg
+
+
+def _gen_error_count(tmp_path, mode):
+    from generator.pipeline import generate
+
+    f = tmp_path / "c.toml"
+    f.write_text(f'[sources]\ninclude = ["8B"]\n[sources.scale]\n8B = 1e30\n'
+                 f'[run]\ncount_mode = "{mode}"\n')
+    with pytest.raises(ConfigError) as err:
+        generate(load_config(f), tmp_path / "o.h5")
+    assert not (tmp_path / "o.h5").exists()
+    _one_line(err.value)
+    return str(err.value)
+
+
+def test_chunk_size_is_bounded_by_memory(tmp_path):
+    f = tmp_path / "c.toml"
+    f.write_text("[run]\nchunk_size = 67108864\n")
+    with pytest.raises(ConfigError, match="run.chunk_size"):
+        load_config(f)
+
+
+def test_sparse_run_list_over_centuries_tabulates_only_live_time(tmp_path):
+    """Two one-hour runs 250 years apart: the Sun table follows the live time (2 h), not the
+    span (about 1.3e8 nodes at 60 s, 2 GB)."""
+    from generator.exposure import Exposure
+
+    runs = np.array([[parse("1901-01-01T00:00:00"), parse("1901-01-01T01:00:00")],
+                     [parse("2151-06-01T00:00:00"), parse("2151-06-01T01:00:00")]])
+    ex = Exposure(runs, 10.0, 20.0)
+    assert ex.table.n_nodes < 200
+    rng = np.random.default_rng(1)
+    t = ex.sample_times(rng, 1000)
+    nu, cz, dist = ex.sun(t)
+    from generator.ephemeris import sun_position
+
+    to_sun, _, _ = sun_position(t, 10.0, 20.0)
+    assert np.max(np.abs(nu + to_sun)) < 1e-5
+    assert ex.zenith_exposure(np.linspace(-1, 1, 5)).sum() == pytest.approx(
+        ex.live_seconds * ex.mean_inverse_r2, rel=1e-9)
+
+
+def parse(text):
+    from generator.exposure import parse_utc
+
+    return parse_utc(text, "t")
+
+
+@pytest.mark.parametrize("args,ok", [(["--events", "1e3"], True), (["--seed", "0x10"], True),
+                                     (["--events", "1.5e0"], False), (["--events", "1e13"], False),
+                                     (["--seed", "ten"], False)])
+def test_cli_integers_in_scientific_and_hex_notation(tmp_path, capsys, args, ok):
+    from generator.cli import main
+
+    out = tmp_path / "o.h5"
+    base = ["generate", "-o", str(out), "--quiet"]
+    extra = [] if "--events" in args else ["--events", "500"]
+    if "--seed" not in args:
+        extra += ["--seed", "1"]
+    try:
+        code = main([*base, *args, *extra])
+    except SystemExit as exc:  # argparse usage errors
+        code = exc.code
+    assert (code == 0) == ok, capsys.readouterr().err
+    assert out.exists() == ok
