@@ -49,6 +49,7 @@ from .constants import CODATA_EDITION_NOTE, SECONDS_PER_DAY
 from .errors import ConfigError
 from .exposure import Exposure, load_run_list, parse_utc
 from .geometry import FiducialVolume, make_fiducial
+from .io.preflight import check_target
 from .io.schema import EVENT_FIELDS, FRAME_CONVENTION, LAYOUT_VERSION, empty_chunk
 from .io.writer import HDF5Sink, MemorySink
 from .media import Medium, get_medium
@@ -538,12 +539,14 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         seed = cfg.run.seed
     entropy = int(seed) if seed is not None else secrets.randbits(128)
     path = Path(out if out is not None else cfg.output.path)
-    if sink is None:
-        from .io.writer import check_output_path
-
-        check_output_path(path, force)        # fail early, before the expensive tables
+    if sink is None:                          # fail early, before the expensive tables
+        known = n_events if n_events is not None else (
+            cfg.run.events if cfg.run.count_mode == "fixed" else None)
+        check_target(path, force, known)
     plan = build_plan(cfg)
     n_total = _event_count(plan, entropy, n_events)
+    if sink is None and n_events is None and cfg.run.count_mode != "fixed":
+        check_target(path, force, n_total)
     if on_start is not None:
         on_start(n_total)
     chunk = cfg.run.chunk_size
