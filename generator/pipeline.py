@@ -542,7 +542,7 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
     if sink is None:                          # fail early, before the expensive tables
         known = n_events if n_events is not None else (
             cfg.run.events if cfg.run.count_mode == "fixed" else None)
-        check_target(path, force, known)
+        check_target(path, force, known, create_folder=out is None)
     plan = build_plan(cfg)
     n_total = _event_count(plan, entropy, n_events)
     if sink is None and n_events is None and cfg.run.count_mode != "fixed":

@@ -53,7 +53,7 @@ def _describe(mode: int) -> str:
 
 
 def check_target(path: str | os.PathLike[str], force: bool, n_events: int | None = None,
-                 bytes_per_event: float = BYTES_PER_EVENT) -> None:
+                 bytes_per_event: float = BYTES_PER_EVENT, create_folder: bool = False) -> None:
     """Refuse an output target that cannot or must not be written.
 
     Parameters
@@ -66,6 +66,9 @@ def check_target(path: str | os.PathLike[str], force: bool, n_events: int | None
         Planned event count, for the free-space estimate.
     bytes_per_event : float
         Compressed bytes per event for the estimate.
+    create_folder : bool
+        Create a missing parent folder (used for the configured ``output.path``, e.g. the
+        default ``outputs/``; a folder named with ``-o`` must exist).
 
     Raises
     ------
@@ -98,6 +101,12 @@ def check_target(path: str | os.PathLike[str], force: bool, n_events: int | None
             raise OutputExistsError(f"output file {shown} exists; use --force (or choose "
                                     "another path) to overwrite")
     folder = p.parent if str(p.parent) else Path(".")
+    if not folder.exists() and create_folder:
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise InputError(f"output folder {clip(str(folder))} cannot be created "
+                             f"({exc.strerror})") from None
     if not folder.exists():
         raise InputError(f"output folder {clip(str(folder))} does not exist; create it first")
     if not folder.is_dir():
