@@ -1,12 +1,12 @@
 """Run configuration: TOML files parsed into frozen dataclasses and validated at the boundary.
 
-A configuration file has the sections ``[detector]``, ``[exposure]``, ``[sources]``,
-``[oscillation]``, ``[interaction]``, ``[run]`` and ``[output]``. The sections ``[response]``
-and ``[backgrounds]`` are reserved for stages on the roadmap: they are rejected with a clear
-message until those stages exist. The embedded default (``generator/data/default.toml``, a
-fictional mid-size water-Cherenkov detector at a fictional site) is used when no file is given;
-a user file is merged over it key by key (for ``[exposure]`` a file that sets any of
-``stop_utc``, ``live_days`` or ``run_list`` replaces the default's choice of time window).
+Sections ``[detector]``, ``[exposure]``, ``[sources]``, ``[oscillation]``, ``[interaction]``,
+``[run]``, ``[output]``, and the optional ``[response]`` and ``[media.<name>]`` (parsed in
+:mod:`generator.response.config`); ``[backgrounds]`` is reserved (rejected until it exists).
+The embedded default (``generator/data/default.toml``, a fictional mid-size water-Cherenkov
+detector at a fictional site) is used when no file is given; a user file is merged over it key
+by key (for ``[exposure]`` a file that sets any of ``stop_utc``, ``live_days`` or ``run_list``
+replaces the default's choice of time window).
 
 Every error is a :class:`~generator.errors.ConfigError` that names the key path, the bad value
 and what is allowed.
@@ -26,27 +26,12 @@ from typing import Any
 from .errors import ConfigError
 from .userfiles import clip, read_user_text
 
-__all__ = [
-    "Config",
-    "DetectorConfig",
-    "ExposureConfig",
-    "SourcesConfig",
-    "CustomSourceConfig",
-    "OscillationConfig",
-    "InteractionConfig",
-    "RunConfig",
-    "OutputConfig",
-    "load_config",
-    "parse_config",
-    "default_config_text",
-    "to_toml",
-    "MAX_EVENTS",
-    "MAX_CHUNK_SIZE",
-]
+__all__ = ["Config", "DetectorConfig", "ExposureConfig", "SourcesConfig", "CustomSourceConfig",
+           "OscillationConfig", "InteractionConfig", "RunConfig", "OutputConfig", "load_config",
+           "parse_config", "default_config_text", "to_toml", "MAX_EVENTS", "MAX_CHUNK_SIZE"]
 
 KNOWN_SOURCES = ("pp", "pep", "hep", "7Be", "8B", "13N", "15O", "17F")
 RESERVED_SECTIONS = {
-    "response": "the detector-response stage is not implemented yet",
     "backgrounds": "the radioactive-background stage is not implemented yet",
 }
 COMPRESSIONS = ("blosc-lz4", "zstd", "lzf", "gzip", "none")
@@ -74,6 +59,8 @@ class DetectorConfig:
     latitude_deg: float
     longitude_deg: float
     depth_m: float
+    target_mass_t: float | None = None
+    target_electrons: float | None = None
 
 
 @dataclass(frozen=True)
@@ -169,6 +156,8 @@ class Config:
     interaction: InteractionConfig
     run: RunConfig
     output: OutputConfig
+    response: Any = None              # generator.response.config.ResponseConfig
+    media: tuple = ()                 # generator.response.config.MediumConfig entries
     source_file: str | None = None
 
 
@@ -274,22 +263,28 @@ def _check_number(path: str, v: Any, lo: float | None, hi: float | None,
 
 
 # --------------------------------------------------------------------------- sections
-def _parse_detector(t: Any) -> DetectorConfig:
+def _parse_detector(t: Any, media: tuple[str, ...] = ()) -> DetectorConfig:
     s = _Section(t, "detector")
     from .geometry import SHAPES
     from .media import MEDIA
 
     cfg = DetectorConfig(
         name=s.string("name"),
-        medium=s.string("medium", choices=tuple(MEDIA)),
+        medium=s.string("medium", choices=tuple(sorted({*MEDIA, *media}))),
         fiducial_shape=s.string("fiducial_shape", choices=SHAPES),
         fiducial_radius_m=s.number("fiducial_radius_m", lo=0.0, hi=1000.0, lo_open=True),
         fiducial_half_height_m=s.number("fiducial_half_height_m", 0.0, lo=0.0, hi=1000.0),
         latitude_deg=s.number("latitude_deg", lo=-90.0, hi=90.0),
         longitude_deg=s.number("longitude_deg", lo=-180.0, hi=180.0),
         depth_m=s.number("depth_m", 0.0, lo=0.0, hi=10000.0),
+        target_mass_t=s.number("target_mass_t", lo=0.0, hi=1e9, lo_open=True, optional=True),
+        target_electrons=s.number("target_electrons", lo=0.0, hi=1e45, lo_open=True,
+                                  optional=True),
     )
     s.finish()
+    if cfg.target_mass_t is not None and cfg.target_electrons is not None:
+        raise ConfigError("detector.target_electrons: give either target_mass_t or "
+                          "target_electrons, not both")
     if cfg.fiducial_shape == "cylinder" and cfg.fiducial_half_height_m <= 0.0:
         raise ConfigError(
             f"detector.fiducial_half_height_m: {cfg.fiducial_half_height_m} must be > 0 "
@@ -525,23 +520,29 @@ def parse_config(data: dict, base_dir: Path | None = None, source_file: str | No
         Naming the key path, the bad value and what is allowed.
     """
     known = ("detector", "exposure", "sources", "oscillation", "interaction", "run", "output")
-    for k in data:
+    optional = ("response", "media")
+    from .response.config import parse_media, parse_response
+
+    for k in [k for k in data if k not in optional]:
         if k in RESERVED_SECTIONS:
             raise ConfigError(f"{k}: section not supported yet ({RESERVED_SECTIONS[k]})")
         if k not in known:
             raise ConfigError(f"{clip(k)}: unknown section{_suggest(k, known)}; allowed "
-                              f"sections: {list(known)}")
+                              f"sections: {[*known, *optional]}")
     for k in known:
         if k not in data:
             raise ConfigError(f"{k}: required section is missing")
+    media = parse_media(data.get("media", {}))
     return Config(
-        detector=_parse_detector(data["detector"]),
+        detector=_parse_detector(data["detector"], tuple(m.name for m in media)),
         exposure=_parse_exposure(data["exposure"], base_dir),
         sources=_parse_sources(data["sources"], base_dir),
         oscillation=_parse_oscillation(data["oscillation"]),
         interaction=_parse_interaction(data["interaction"]),
         run=_parse_run(data["run"]),
         output=_parse_output(data["output"]),
+        response=parse_response(data.get("response", {"enabled": False})),
+        media=media,
         source_file=source_file,
     )
 
@@ -617,7 +618,7 @@ def to_toml(cfg: Config) -> str:
     """Write the effective configuration as TOML text (round-trips through :func:`parse_config`)."""
     lines: list[str] = []
     for section in fields(cfg):
-        if section.name == "source_file":
+        if section.name in ("source_file", "response", "media"):
             continue
         obj = getattr(cfg, section.name)
         lines.append(f"[{section.name}]")
@@ -643,4 +644,6 @@ def to_toml(cfg: Config) -> str:
                 for f in fields(item):
                     lines.append(f"{f.name} = {_toml_value(getattr(item, f.name))}")
         lines.append("")
-    return "\n".join(lines)
+    from .response.config import media_toml_lines, response_toml_lines
+
+    return "\n".join(lines + response_toml_lines(cfg.response) + media_toml_lines(cfg.media))

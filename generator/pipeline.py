@@ -50,9 +50,9 @@ from .errors import ConfigError
 from .exposure import Exposure, load_run_list, parse_utc
 from .geometry import FiducialVolume, make_fiducial
 from .io.preflight import check_target
-from .io.schema import EVENT_FIELDS, FRAME_CONVENTION, LAYOUT_VERSION, empty_chunk
+from .io.schema import FRAME_CONVENTION, LAYOUT_VERSION, empty_chunk
 from .io.writer import HDF5Sink, MemorySink
-from .media import Medium, get_medium
+from .media import Medium, get_medium, target_electrons
 from .oscillation import PRESETS, FlavourModel, OscillationParams
 from .recoil import RecoilSampler
 from .xsec import XsecModel
@@ -110,6 +110,7 @@ class RunPlan:
     source_cdf: np.ndarray = field(repr=False)
     zenith_edges: np.ndarray = field(repr=False)
     zenith_weights: np.ndarray = field(repr=False)
+    response: Any = None              # generator.response.ResponseModel, or None when off
 
     @property
     def expected_rate_per_day(self) -> float:
@@ -153,9 +154,12 @@ def build_plan(cfg: Config) -> RunPlan:
     :class:`~generator.errors.InputError`, before any output is opened.
     """
     det = cfg.detector
-    medium = get_medium(det.medium)
+    from .response import build_media, build_response
+
+    medium = get_medium(det.medium, build_media(cfg.media))
     fid = make_fiducial(det.fiducial_shape, det.fiducial_radius_m, det.fiducial_half_height_m)
-    n_e = medium.electrons_in(fid.volume_cm3)
+    n_e = target_electrons(medium, fid.volume_cm3, det.target_mass_t, det.target_electrons)
+    response = build_response(cfg, medium)
     exposure = Exposure(_intervals(cfg), det.latitude_deg, det.longitude_deg)
 
     ic = cfg.interaction
@@ -206,7 +210,7 @@ def build_plan(cfg: Config) -> RunPlan:
     cdf = np.cumsum(expected) / total
     cdf[-1] = 1.0
     return RunPlan(cfg, medium, fid, n_e, exposure, xs, recoil, flavour, pdgs, plans, total,
-                   cdf, edges, wz)
+                   cdf, edges, wz, response)
 
 
 def _no_events_error(plans: list[SourcePlan], n_e: float, exposure: Exposure,
@@ -437,6 +441,14 @@ def _event_count(plan: RunPlan, entropy: int, n_events: int | None) -> int:
     return int(rng.poisson(plan.expected_total))
 
 
+def _stage_names(response_on: bool) -> dict[str, str]:
+    """``stages_present``/``stages_absent`` attributes."""
+    present = "sources, cross sections, ephemeris, solar MSW, Earth regeneration"
+    absent = [s for s in ABSENT_STAGES if not (response_on and s.startswith("detector"))]
+    return {"stages_present": present + (", detector response" if response_on else ""),
+            "stages_absent": "; ".join(absent) or "none"}
+
+
 def provenance(plan: RunPlan, entropy: int, n: int) -> dict[str, Any]:
     """Root attributes of an event file."""
     cfg = plan.config
@@ -464,8 +476,7 @@ def provenance(plan: RunPlan, entropy: int, n: int) -> dict[str, Any]:
         "frame": FRAME_CONVENTION,
         "units_convention": "MeV, mm, ns inside events; UTC seconds since the Unix epoch for "
                             "times; cm^2 and cm^-2 s^-1 for cross sections and fluxes",
-        "stages_present": "sources, cross sections, ephemeris, solar MSW, Earth regeneration",
-        "stages_absent": "; ".join(ABSENT_STAGES),
+        **_stage_names(False),
         "constants": CODATA_EDITION_NOTE,
     }
 
@@ -553,15 +564,20 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
     n_chunks = -(-n_total // chunk)
     weight = plan.expected_total / n_total if n_total else 0.0
     own_sink = sink is None
+    from .response import ResponseStage, output_fields
+
+    stage = ResponseStage(plan.response, lambda t: plan.exposure.sun(t)[0]) \
+        if plan.response is not None else None
     if own_sink:
-        sink = HDF5Sink(path, EVENT_FIELDS, compression=cfg.output.compression,
+        sink = HDF5Sink(path, output_fields(cfg), compression=cfg.output.compression,
                         compression_level=cfg.output.compression_level,
                         chunk_rows=min(chunk, 1 << 16), force=force)
     try:
         for k in range(n_chunks):
             m = min(chunk, n_total - k * chunk)
             rng = np.random.default_rng(chunk_seed(entropy, k))
-            sink.write_chunk(generate_chunk(plan, rng, m, weight))
+            ev = generate_chunk(plan, rng, m, weight)
+            sink.write_chunk(stage.process(ev, entropy, k) if stage is not None else ev)
             if progress is not None:
                 progress(m)
         codes = [sp.code for sp in plan.sources]
@@ -570,6 +586,9 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
                                                           dtype=object)})
         _write_tables(sink, plan)
         sink.set_attrs(provenance(plan, entropy, n_total))
+        if stage is not None:
+            stage.write_tables(sink)
+            sink.set_attrs({**stage.attrs(weight), **_stage_names(True)})
         result = sink.commit()
     except BaseException:
         sink.abort()
@@ -580,6 +599,8 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
 
 def memory_run(cfg: Config, n_events: int, seed: int) -> tuple[MemorySink, RunSummary]:
     """Run into an in-memory sink (tests, notebooks)."""
-    sink = MemorySink(EVENT_FIELDS)
+    from .response import output_fields
+
+    sink = MemorySink(output_fields(cfg))
     summary = generate(cfg, n_events=n_events, seed=seed, sink=sink)
     return sink, summary

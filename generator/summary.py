@@ -16,7 +16,10 @@ _FLAVOUR = {12: "nu_e", 14: "nu_mu", 16: "nu_tau", -12: "anti-nu_e", -14: "anti-
 _PROVENANCE_KEYS = ("tool_version", "layout_version", "created_utc", "config_source",
                     "seed_entropy", "chunk_size", "count_mode", "expected_events",
                     "expected_events_per_live_day", "weight_per_event", "target_electrons",
-                    "fiducial_mass_kg", "threshold_mev", "mean_inverse_r2", "stages_absent")
+                    "fiducial_mass_kg", "threshold_mev", "mean_inverse_r2", "stages_present",
+                    "stages_absent", "response_variant", "n_generated", "n_triggered",
+                    "trigger_efficiency", "expected_events_triggered")
+_RECO = ("reco_energy", "n_pe", "reco_cos_sun")
 
 
 def _utc(t: float) -> str:
@@ -34,19 +37,24 @@ def summarise(path: Path, chunk: int = 1 << 20) -> str:
         n = ev.n_events
         by_origin: dict[int, int] = {}
         by_flavour: dict[int, int] = {}
-        ranges = {k: [np.inf, -np.inf] for k in ("nu_energy", "e_kinetic", "time_utc")}
+        reco = [k for k in _RECO if k in ev.fields]
+        ranges = {k: [np.inf, -np.inf] for k in ("nu_energy", "e_kinetic", "time_utc", *reco)}
         night = 0
         wsum = 0.0
+        trig = 0
         for c in ev.iter_chunks(chunk, ["origin", "nu_pdg", "nu_energy", "e_kinetic",
-                                        "time_utc", "is_night", "weight"]):
+                                        "time_utc", "is_night", "weight", *reco,
+                                        *(["triggered"] if reco else [])]):
             for key, store in (("origin", by_origin), ("nu_pdg", by_flavour)):
                 u, cnt = np.unique(c[key], return_counts=True)
                 for a, b in zip(u.tolist(), cnt.tolist(), strict=True):
                     store[a] = store.get(a, 0) + b
             for k, r in ranges.items():
-                if c[k].size:
-                    r[0] = min(r[0], float(c[k].min()))
-                    r[1] = max(r[1], float(c[k].max()))
+                if c[k].size and not np.all(np.isnan(c[k])):
+                    r[0] = min(r[0], float(np.nanmin(c[k])))
+                    r[1] = max(r[1], float(np.nanmax(c[k])))
+            if reco:
+                trig += int(np.count_nonzero(c["triggered"]))
             night += int(c["is_night"].sum())
             wsum += float(c["weight"].sum(dtype=np.float64))
         attrs = ev.attrs
@@ -67,6 +75,12 @@ def summarise(path: Path, chunk: int = 1 << 20) -> str:
                              f"{ev.units(k)}")
             lines.append(f"  time_utc   {_utc(ranges['time_utc'][0])} – "
                          f"{_utc(ranges['time_utc'][1])}")
+            for k in reco:
+                lo, hi = ranges[k]
+                lines.append(f"  {k:<12s} {lo:.4f} – {hi:.4f} {ev.units(k)}" if lo <= hi
+                             else f"  {k:<12s} not reconstructed (NaN)")
+            if reco:
+                lines.append(f"triggered: {trig} of {n} stored events ({trig / n:.4f})")
         intervals = ev.table("exposure/intervals")
         lines.append(f"exposure: {len(intervals)} live period(s), {live / 86400.0:.4f} live days, "
                      f"{_utc(intervals[0, 0])} – {_utc(intervals[-1, 1])}")

@@ -18,7 +18,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Field", "EVENT_FIELDS", "FRAME_CONVENTION", "FIELD_BY_NAME", "LAYOUT_VERSION"]
+__all__ = ["Field", "EVENT_FIELDS", "FRAME_CONVENTION", "FIELD_BY_NAME", "LAYOUT_VERSION",
+           "RESPONSE_FIELDS"]
 
 #: Version of the file layout; bumped when a field changes meaning or type.
 LAYOUT_VERSION = "1"
@@ -60,7 +61,21 @@ EVENT_FIELDS: tuple[Field, ...] = (
           "configured exposure"),
 )
 
-FIELD_BY_NAME: dict[str, Field] = {f.name: f for f in EVENT_FIELDS}
+#: Reconstructed fields of the detector-response stage (present only when it is on).
+RESPONSE_FIELDS: tuple[Field, ...] = (
+    Field("reco_energy", "f4", (), "MeV", "reconstructed (calibrated) kinetic energy, "
+          "electron-equivalent"),
+    Field("reco_dir", "f4", (3,), "", "reconstructed direction (unit vector); NaN where no "
+          "direction is reconstructed (scintillator response, no Cherenkov light)"),
+    Field("reco_vertex", "f4", (3,), "mm", "reconstructed vertex"),
+    Field("reco_cos_sun", "f4", (), "", "cosine of the angle between reco_dir and the "
+          "Sun-to-detector direction; NaN without reco_dir"),
+    Field("n_pe", "i4", (), "photoelectrons", "detected photoelectrons (incl. dark noise)"),
+    Field("triggered", "u1", (), "", "1 if the event passes the trigger turn-on and the "
+          "analysis threshold on reco_energy"),
+)
+
+FIELD_BY_NAME: dict[str, Field] = {f.name: f for f in (*EVENT_FIELDS, *RESPONSE_FIELDS)}
 
 
 def empty_chunk(n: int) -> dict[str, np.ndarray]:
