@@ -8,6 +8,7 @@ from __future__ import annotations
 import argparse
 import decimal
 import logging
+import os
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -71,13 +72,24 @@ def build_parser() -> argparse.ArgumentParser:
     csub = c.add_subparsers(dest="config_command", required=True, parser_class=_Parser)
     show = csub.add_parser("show", help="print the effective configuration as TOML",
                            description="Print the effective configuration (defaults merged).")
-    show.add_argument("config", nargs="?", help="TOML configuration file")
+    show.add_argument("config", nargs="?", help="TOML configuration file, or an event file "
+                                                "(.h5) whose recorded configuration is printed")
 
     i = sub.add_parser("inspect", help="summarise an event file",
                        description="Counts by origin and flavour, energy ranges, exposure and "
                                    "provenance of an event file.")
     i.add_argument("file", help="HDF5 event file")
+    i.add_argument("--json", action="store_true", help="machine-readable summary (JSON)")
     return p
+
+
+def _terminal_size() -> tuple[int, int]:
+    """Columns and lines of the terminal on stderr (80 × 24 where it reports none)."""
+    try:
+        size = os.get_terminal_size(sys.stderr.fileno())
+    except OSError:
+        return 80, 24
+    return size.columns or 80, size.lines or 24
 
 
 def _cmd_generate(args: argparse.Namespace) -> int:
@@ -92,19 +104,32 @@ def _cmd_generate(args: argparse.Namespace) -> int:
     if args.seed is not None and not 0 <= args.seed < 2**128:
         raise InputError(f"--seed: {args.seed} is out of range; use 0 ≤ seed < 2**128")
     cfg = load_config(args.config)
+    target = args.output if args.output is not None else cfg.output.path
+    if Path(target).suffix.lower() not in (".h5", ".hdf5"):
+        log.warning("output %r does not end in .h5 or .hdf5; it is written as HDF5 anyway",
+                    str(target))
     bar = None
     if not args.quiet:
-        bar = tqdm(total=args.events, unit="ev", unit_scale=True, file=sys.stderr,
-                   desc="generate")
+        print("sunrecoil: building tables …", file=sys.stderr, flush=True)
 
     def start(n: int) -> None:
+        nonlocal bar
+        if not args.quiet:
+            cols, rows = _terminal_size()
+            # on a terminal the bar redraws in place and prints its final state once; piped
+            # output gets no bar lines, only the summary line at the end
+            bar = tqdm(total=n, unit=" events", unit_scale=True, file=sys.stderr,
+                       disable=not sys.stderr.isatty(), ncols=cols, nrows=rows,
+                       desc="generate", bar_format="{desc}: {percentage:3.0f}%|{bar}| "
+                       "{n_fmt}/{total_fmt} [{elapsed}<{remaining}, {rate_fmt}]")
+
+    def advance(m: int) -> None:
         if bar is not None:
-            bar.reset(total=n)
+            bar.update(m)
 
     try:
         summary = generate(cfg, args.output, n_events=args.events, seed=args.seed,
-                           force=args.force, progress=bar.update if bar is not None else None,
-                           on_start=start)
+                           force=args.force, progress=advance, on_start=start)
     finally:
         if bar is not None:
             bar.close()
@@ -116,16 +141,33 @@ def _cmd_generate(args: argparse.Namespace) -> int:
 
 
 def _cmd_config_show(args: argparse.Namespace) -> int:
-    from .config import load_config, to_toml
+    from .config import check_data_files, load_config, to_toml
 
-    sys.stdout.write(to_toml(load_config(args.config)))
+    if args.config is not None and _is_hdf5(args.config):
+        from .io import EventFile
+
+        with EventFile(args.config) as ev:
+            sys.stdout.write(str(ev.attrs["config_toml"]))
+        return 0
+    cfg = load_config(args.config)
+    check_data_files(cfg)
+    sys.stdout.write(to_toml(cfg))
     return 0
 
 
-def _cmd_inspect(args: argparse.Namespace) -> int:
-    from .summary import summarise
+def _is_hdf5(path: str) -> bool:
+    """True when the file starts with the HDF5 signature (user block offsets 0 only)."""
+    try:
+        with open(path, "rb") as fh:
+            return fh.read(8) == b"\x89HDF\r\n\x1a\n"
+    except OSError:
+        return False
 
-    sys.stdout.write(summarise(Path(args.file)))
+
+def _cmd_inspect(args: argparse.Namespace) -> int:
+    from .summary import summarise, summary_json
+
+    sys.stdout.write(summary_json(args.file) if args.json else summarise(Path(args.file)))
     return 0
 
 

@@ -28,7 +28,8 @@ from .userfiles import clip, read_user_text
 
 __all__ = ["Config", "DetectorConfig", "ExposureConfig", "SourcesConfig", "CustomSourceConfig",
            "OscillationConfig", "InteractionConfig", "RunConfig", "OutputConfig", "load_config",
-           "parse_config", "default_config_text", "to_toml", "MAX_EVENTS", "MAX_CHUNK_SIZE"]
+           "parse_config", "default_config_text", "to_toml", "check_data_files", "MAX_EVENTS",
+           "MAX_CHUNK_SIZE"]
 
 KNOWN_SOURCES = ("pp", "pep", "hep", "7Be", "8B", "13N", "15O", "17F")
 RESERVED_SECTIONS = {
@@ -574,6 +575,23 @@ def load_config(path: str | Path | None = None) -> Config:
         return parse_config(_merge(default, user), base, str(p))
     except RecursionError:
         raise ConfigError(f"config file {clip(str(p))}: values nested too deeply") from None
+
+
+def check_data_files(cfg: Config) -> None:
+    """Read and validate every data file a configuration names (run list, custom spectra).
+
+    Raises
+    ------
+    DataFileError
+        For a missing, unreadable or malformed file, naming it.
+    """
+    from .exposure import load_run_list
+    from .spectra import load_custom_spectrum
+
+    if cfg.exposure.run_list is not None:
+        load_run_list(cfg.exposure.run_list)
+    for c in cfg.sources.custom:
+        load_custom_spectrum(c.spectrum_file, c.name)
 
 
 # --------------------------------------------------------------------------- TOML output

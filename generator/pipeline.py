@@ -474,8 +474,9 @@ def provenance(plan: RunPlan, entropy: int, n: int) -> dict[str, Any]:
         "fiducial_mass_kg": plan.fiducial.volume_cm3 * plan.medium.density_g_cm3 / 1000.0,
         "threshold_mev": cfg.interaction.threshold_mev,
         "frame": FRAME_CONVENTION,
-        "units_convention": "MeV, mm, ns inside events; UTC seconds since the Unix epoch for "
-                            "times; cm^2 and cm^-2 s^-1 for cross sections and fluxes",
+        "units_convention": "MeV for energies and mm for lengths inside events; UTC seconds "
+                            "since the Unix epoch for event times; cm^2 and cm^-2 s^-1 for "
+                            "cross sections and fluxes",
         **_stage_names(False),
         "constants": CODATA_EDITION_NOTE,
     }

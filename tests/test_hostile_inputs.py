@@ -303,7 +303,7 @@ def test_long_and_non_ascii_source_names_survive_the_file(tmp_path):
     cfg = load_config(_custom_config(tmp_path, names))
     out = generate(cfg, tmp_path / "o.h5").path
     with EventFile(out) as ev:
-        got = set(ev.origin_names().values())
+        got = set(ev.origin_names.values())
         table = [x.decode() if isinstance(x, bytes) else x for x in ev._f["sources/name"][:]]
     assert set(names) <= got and set(names) <= set(table)
 

@@ -120,6 +120,7 @@ class EventFile:
         """The unit attribute of a field."""
         return str(_decode(self.events[field].attrs["units"]))
 
+    @property
     def origin_names(self) -> dict[int, str]:
         """Mapping origin code → source/background name."""
         ds = self.events["origin"]

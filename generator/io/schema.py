@@ -45,8 +45,8 @@ class Field:
 #: Truth-level fields, in file order.
 EVENT_FIELDS: tuple[Field, ...] = (
     Field("time_utc", "f8", (), "s", "event time, UTC seconds since 1970-01-01T00:00:00 (Unix)"),
-    Field("origin", "i2", (), "", "signal source or background code; names in /events/origin "
-          "attribute 'codes'"),
+    Field("origin", "i2", (), "", "signal source or background code; the attributes 'codes' "
+          "and 'names' of /events/origin map codes to names"),
     Field("nu_pdg", "i2", (), "", "PDG Monte Carlo code of the neutrino flavour at detection"),
     Field("nu_energy", "f4", (), "MeV", "incoming neutrino energy"),
     Field("nu_dir", "f4", (3,), "", "incoming neutrino direction (unit vector, Sun to detector)"),
