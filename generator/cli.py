@@ -105,15 +105,15 @@ def _cmd_generate(args: argparse.Namespace) -> int:
         raise InputError(f"--seed: {args.seed} is out of range; use 0 ≤ seed < 2**128")
     cfg = load_config(args.config)
     target = args.output if args.output is not None else cfg.output.path
-    if Path(target).suffix.lower() not in (".h5", ".hdf5"):
-        log.warning("output %r does not end in .h5 or .hdf5; it is written as HDF5 anyway",
-                    str(target))
     bar = None
     if not args.quiet:
         print("sunrecoil: building tables …", file=sys.stderr, flush=True)
 
     def start(n: int) -> None:
         nonlocal bar
+        if Path(target).suffix.lower() not in (".h5", ".hdf5"):  # after the target checks
+            log.warning("output %r does not end in .h5 or .hdf5; it is written as HDF5 anyway",
+                        str(target))
         if not args.quiet:
             cols, rows = _terminal_size()
             # on a terminal the bar redraws in place and prints its final state once; piped
