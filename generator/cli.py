@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import decimal
+import importlib
 import logging
 import os
 import sys
@@ -20,6 +21,10 @@ from .errors import InputError, SunrecoilError
 __all__ = ["main", "build_parser", "exact_int"]
 
 log = logging.getLogger("generator")
+
+#: Commands implemented in ``generator/commands/<name>.py``; each module provides
+#: ``add_parser(subparsers)`` (which sets ``run=<function(args) -> int>`` as a default).
+COMMAND_MODULES: tuple[str, ...] = ("check",)
 
 
 class _Parser(argparse.ArgumentParser):
@@ -80,6 +85,8 @@ def build_parser() -> argparse.ArgumentParser:
                                    "provenance of an event file.")
     i.add_argument("file", help="HDF5 event file")
     i.add_argument("--json", action="store_true", help="machine-readable summary (JSON)")
+    for name in COMMAND_MODULES:
+        importlib.import_module(f"{__package__}.commands.{name}").add_parser(sub)
     return p
 
 
@@ -181,7 +188,9 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _cmd_generate(args)
         if args.command == "config":
             return _cmd_config_show(args)
-        return _cmd_inspect(args)
+        if args.command == "inspect":
+            return _cmd_inspect(args)
+        return int(args.run(args))
     except InputError as exc:
         print(f"sunrecoil: error: {exc}", file=sys.stderr)
         return 2

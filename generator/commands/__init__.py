@@ -1,0 +1,1 @@
+"""CLI commands beyond generate/config/inspect, one module each (see generator.cli)."""
