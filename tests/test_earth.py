@@ -183,7 +183,7 @@ def _adn(params, tmp_path, latitude, t_min):
 
 @pytest.mark.slow
 def test_day_night_asymmetry_sk1_parameters(tmp_path):
-    # Smy et al. (Super-Kamiokande), PRD 69, 011104 (2004), abstract: expected ES-rate
+    # Smy et al., Phys. Rev. D 69, 011104 (2004), abstract: expected ES-rate
     # asymmetry −2.1 % at Δm² = 6.3e-5 eV², tan²θ = 0.55 (2ν).  Fictional site at 36° N,
     # 1000 m depth, recoil threshold 4.5 MeV kinetic (≈ 5 MeV total energy).  Tolerance
     # 0.5 % absolute for differences in Earth model, threshold/resolution and spectrum.
@@ -194,9 +194,10 @@ def test_day_night_asymmetry_sk1_parameters(tmp_path):
 
 @pytest.mark.slow
 def test_day_night_asymmetry_best_fit(tmp_path):
-    # NuFIT 6.0 best fit: ⁸B ES asymmetry ≈ −1.7 … −3 % (expectation quoted for SK, from
-    # memory; scales ≈ 1/Δm²21 from the −2.1 % above), ⁷Be |A_DN| < 1e-3 (Borexino, PLB 707,
-    # 22 (2012) measured 0.001 ± 0.012 ± 0.007, from memory; tiny by the §3.1 argument).
+    # NuFIT 6.0 best fit: ⁸B ES asymmetry ≈ −1.7 … −3 % (expectation quoted for a water
+    # detector, from memory; scales ≈ 1/Δm²21 from the −2.1 % above), ⁷Be |A_DN| < 1e-3
+    # (Bellini et al., Phys. Lett. B 707, 22 (2012) measured 0.001 ± 0.012 ± 0.007, from
+    # memory; tiny by the §3.1 argument).
     a8, a7 = _adn(REF, tmp_path, 42.0, 4.5)
     assert -0.030 <= a8 <= -0.012
     assert abs(a7) < 1e-3
