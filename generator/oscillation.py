@@ -4,11 +4,14 @@ Physics model
 -------------
 * Sun: three-flavour adiabatic MSW (level-crossing probability P_c = 0; non-adiabatic
   corrections for LMA are 10⁻⁹–10⁻⁷, de Holanda, Liao & Smirnov, Nucl. Phys. B 702, 307
-  (2004)).  ν₃ decouples and the 1–2 sector sees c₁₃² V_CC (Kuo & Pantaleone, Rev. Mod. Phys.
-  61, 937 (1989)).  Mass-state fractions at the surface (Parke, Phys. Rev. Lett. 57, 1275
-  (1986) with P_c = 0): P_e1 = c₁₃² cos²θ₁₂ᵐ, P_e2 = c₁₃² sin²θ₁₂ᵐ, P_e3 = s₁₃², with θ₁₂ᵐ at
-  the production point, averaged over the source's production region
-  (:mod:`generator.solar_model`).
+  (2004)).  The mass-state fractions at the surface are P_ei = |⟨ν_i^m(r₀)|ν_e⟩|², the
+  electron components of the eigenvectors of the full three-flavour Hamiltonian
+  H = U diag(0, Δm²₂₁, Δm²₃₁) U†/2E + √2 G_F n_e diag(1, 0, 0) at the production point r₀
+  (matter eigenstates ordered by continuity to the vacuum states), averaged over the
+  source's production region (:mod:`generator.solar_model`).  This includes the matter
+  effect on θ₁₃ (P_e3 = 0.0245 instead of s₁₃² = 0.02195 for ⁸B at 10 MeV); the reduced
+  two-flavour formula with c₁₃² V_CC (Kuo & Pantaleone, Rev. Mod. Phys. 61, 937 (1989)) is
+  kept only as a comparison in the tests.
 * Sun → Earth: incoherent mixture of mass states (phases averaged), so at day
   P(ν_e→ν_α) = Σ_i P_ei |U_αi|².
 * Night: P(ν_e→ν_α) = Σ_i P_ei P^⊕_{iα}(E, cos θ_z) with the Earth table of
@@ -24,6 +27,7 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 
 import numpy as np
+from scipy.interpolate import CubicSpline
 
 from generator import cache as _cache
 from generator import earth, solar_model
@@ -36,13 +40,14 @@ __all__ = [
     "PRESETS",
     "get_preset",
     "pmns_matrix",
-    "cos2_theta12_matter",
+    "matter_mass_fractions",
     "sun_mass_fractions",
     "vacuum_flavour_probs",
     "FlavourModel",
 ]
 
 _TABLE_VERSION = "earth-table-v1"
+_LN_A_STEP = 2e-3  # ln A step of the solar fraction grid (spline error < 1e-10)
 _CHUNK = 1 << 15  # events per block in probabilities() (keeps temporaries in cache)
 
 
@@ -131,38 +136,87 @@ def pmns_matrix(p: OscillationParams) -> np.ndarray:
     return r23 @ u13 @ r12
 
 
-def cos2_theta12_matter(energy: np.ndarray, n_e: np.ndarray, p: OscillationParams) -> np.ndarray:
-    """Cos 2θ₁₂ᵐ in matter (3ν reduction with potential c₁₃² V_CC).
+def _vacuum_mass_matrix(p: OscillationParams) -> np.ndarray:
+    """M₀ = U diag(0, Δm²₂₁, Δm²₃₁) U† in eV² (flavour basis; PDG parametrisation)."""
+    u = pmns_matrix(p)
+    return (u * np.array([0.0, p.dm2_21, p.dm2_31])) @ u.conj().T
 
-    cos 2θᵐ = (cos 2θ − β)/sqrt((cos 2θ − β)² + sin² 2θ), β = 2 c₁₃² V_CC E/Δm²₂₁,
-    V_CC = √2 G_F n_e (Wolfenstein, Phys. Rev. D 17, 2369 (1978); Mikheyev & Smirnov 1985).
+
+def matter_mass_fractions(energy: np.ndarray, n_e: np.ndarray, p: OscillationParams) -> np.ndarray:
+    """Adiabatic mass-state fractions |⟨ν_i^m|ν_e⟩|² of a ν_e born at electron density n_e.
+
+    Full three-flavour Hamiltonian in matter (Wolfenstein, Phys. Rev. D 17, 2369 (1978)),
+    2E·H = U diag(0, Δm²₂₁, Δm²₃₁) U† + A diag(1, 0, 0), A = 2E·√2 G_F n_e, with U the PMNS
+    matrix in the PDG parametrisation (δ_CP included).  In the adiabatic limit (no level
+    crossing between matter eigenstates along the path, P_c = 0) the matter eigenstate
+    ν_i^m(r₀) at the production point evolves into the vacuum mass state ν_i at the surface,
+    so the fraction in ν_i is |⟨ν_i^m(r₀)|ν_e⟩|².
+
+    Method (exact, vectorised): the eigenvalues λ_k of 2E·H are the roots of its characteristic
+    cubic λ³ − aλ² + bλ − c with a = Δm²₂₁ + Δm²₃₁ + A, b = Δm²₂₁Δm²₃₁ + A·S, c = A·P, where
+    S and P are the trace and determinant of the (μ, τ) minor of U diag(0, Δm²₂₁, Δm²₃₁) U†
+    (the minor does not depend on A).  Roots by Viète's trigonometric formula (three real
+    roots; e.g. Press et al., *Numerical Recipes*, 3rd ed. (2007) §5.6, from memory), polished
+    by two Newton steps.  The electron components follow from the eigenvector–eigenvalue
+    identity |v_{k,e}|² Π_{j≠k}(λ_k − λ_j) = λ_k² − S λ_k + P (Denton, Parke, Tao & Zhang,
+    arXiv:1908.03795, Theorem 1; used for oscillations in matter by Denton, Parke & Zhang,
+    arXiv:1907.02534).  Ordering by continuity: with every |U_ei| > 0 the eigenvalues strictly
+    interlace the two fixed eigenvalues of the minor (Cauchy interlacing, same survey), so
+    they never cross as A grows from 0 and the k-th smallest matter eigenvalue always
+    connects to the k-th smallest vacuum value (mass state 1, 2, 3 in normal ordering;
+    3, 1, 2 in inverted ordering, Δm²₃₁ < 0).  Near-degenerate cases (a vanishing mixing
+    angle with A at a crossing) fall back to ``numpy.linalg.eigh`` with the same ordering.
 
     Parameters
     ----------
     energy : array_like
         Neutrino energy in MeV.
     n_e : array_like
-        Electron density in N_A cm⁻³ (broadcast against ``energy``).
+        Electron density at the production point in N_A cm⁻³ (broadcast against ``energy``).
     p : OscillationParams
         Mixing parameters.
 
     Returns
     -------
-    ndarray
-        cos 2θ₁₂ᵐ, broadcast shape.
+    ndarray, shape broadcast(energy, n_e) + (3,)
+        (P_e1, P_e2, P_e3); they sum to 1.
     """
-    beta = (
-        2.0
-        * (1.0 - p.sin2_theta13)
-        * MATTER_POTENTIAL_EV_PER_NA
-        * np.asarray(n_e)
-        * np.asarray(energy)
-        * 1e6
-        / p.dm2_21
-    )
-    c2 = 1.0 - 2.0 * p.sin2_theta12
-    s2sq = 1.0 - c2 * c2
-    return (c2 - beta) / np.sqrt((c2 - beta) ** 2 + s2sq)
+    m0 = _vacuum_mass_matrix(p)
+    scale = max(p.dm2_21, abs(p.dm2_31))  # work in units of the largest splitting
+    d21, d31 = p.dm2_21 / scale, p.dm2_31 / scale
+    s_minor = float((m0[1, 1] + m0[2, 2]).real) / scale
+    p_minor = float((m0[1, 1] * m0[2, 2] - m0[1, 2] * m0[2, 1]).real) / scale**2
+    amp = (2e6 * MATTER_POTENTIAL_EV_PER_NA / scale) * np.multiply(energy, n_e, dtype=float)
+    a = d21 + d31 + amp
+    b = d21 * d31 + amp * s_minor
+    c = amp * p_minor
+    sh = a / 3.0
+    pp = b - a * a / 3.0  # depressed cubic t³ + pp t + qq, λ = t + a/3
+    qq = -2.0 * sh**3 + a * b / 3.0 - c
+    mag = 2.0 * np.sqrt(np.maximum(-pp / 3.0, 0.0))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        arg = np.clip(np.where(mag > 0, 3.0 * qq / (pp * mag), 0.0), -1.0, 1.0)
+    phi = np.arccos(arg)[..., None] / 3.0 - (2.0 * np.pi / 3.0) * np.arange(3)
+    lam = np.sort(sh[..., None] + mag[..., None] * np.cos(phi), axis=-1)
+    for _ in range(2):  # Newton polish on the cubic
+        f = ((lam - a[..., None]) * lam + b[..., None]) * lam - c[..., None]
+        df = (3.0 * lam - 2.0 * a[..., None]) * lam + b[..., None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            lam = np.where(np.abs(df) > 1e-12, lam - f / df, lam)
+    den = np.stack([(lam[..., k] - lam[..., (k + 1) % 3]) * (lam[..., k] - lam[..., (k + 2) % 3])
+                    for k in range(3)], axis=-1)
+    num = (lam - s_minor) * lam + p_minor
+    bad = np.min(np.abs(den), axis=-1) < 1e-9
+    with np.errstate(divide="ignore", invalid="ignore"):
+        frac_sorted = np.where(bad[..., None], 0.0, num / den)
+    if np.any(bad):
+        h = np.broadcast_to(m0 / scale, bad.shape + (3, 3))[bad].copy()
+        h[:, 0, 0] += np.broadcast_to(amp, bad.shape)[bad]
+        frac_sorted[bad] = np.abs(np.linalg.eigh(h)[1][:, 0, :]) ** 2
+    order = np.argsort([0.0, d21, d31], kind="stable")  # sorted vacuum index → mass state
+    out = np.empty_like(frac_sorted)
+    out[..., order] = np.clip(frac_sorted, 0.0, 1.0)
+    return out
 
 
 def sun_mass_fractions(
@@ -170,9 +224,10 @@ def sun_mass_fractions(
 ) -> np.ndarray:
     """Mass-state fractions (P_e1, P_e2, P_e3) leaving the Sun, production-region averaged.
 
-    Adiabatic (P_c = 0): P_e1 = c₁₃² (1 + cos 2θ₁₂ᵐ)/2, P_e2 = c₁₃² (1 − cos 2θ₁₂ᵐ)/2,
-    P_e3 = s₁₃² (Parke 1986; 3ν reduction of Kuo & Pantaleone 1989), averaged with the radial
-    production distribution of ``source``.
+    P_ei(E) = Σ_z w_z |⟨ν_i^m(r_z)|ν_e⟩|² (:func:`matter_mass_fractions`: adiabatic limit of
+    the full three-flavour Hamiltonian at the production point, P_c = 0) over the zones r_z
+    of the source's tabulated production distribution with weights w_z
+    (:func:`generator.solar_model.production_quadrature`; zones with w_z = 0 skipped).
 
     Parameters
     ----------
@@ -191,16 +246,30 @@ def sun_mass_fractions(
         Rows sum to 1.
     """
     x, w = solar_model.production_quadrature(source)
-    ne = solar_model.electron_density(x, profile)
-    e = np.atleast_1d(np.asarray(energy, dtype=float))
+    keep = w > 0.0
+    ne = solar_model.electron_density(x[keep], profile)
+    w = w[keep]
+    e = np.atleast_1d(np.asarray(energy, dtype=float)).ravel()
+    # The fractions depend on E and n_e only through A ∝ E·n_e: evaluate them exactly on a
+    # fine grid in ln A (step ≤ _LN_A_STEP) and interpolate with a cubic spline (tested
+    # against the direct evaluation to 1e-9); A = 0 (E = 0) is the vacuum value |U_ei|².
+    pos = e[e > 0.0]
     out = np.empty((e.size, 3))
-    c13sq = 1.0 - p.sin2_theta13
-    for start in range(0, e.size, 256):
-        chunk = e[start : start + 256]
-        c2m = cos2_theta12_matter(chunk[:, None], ne[None, :], p) @ w
-        out[start : start + 256, 0] = c13sq * 0.5 * (1.0 + c2m)
-        out[start : start + 256, 1] = c13sq * 0.5 * (1.0 - c2m)
-    out[:, 2] = p.sin2_theta13
+    if pos.size:
+        lo = math.log(pos.min() * ne.min())
+        hi = math.log(pos.max() * ne.max())
+        n = max(16, int(math.ceil((hi - lo) / _LN_A_STEP)) + 1)
+        grid = np.linspace(lo, hi + 1e-9, n)
+        spline = CubicSpline(grid, matter_mass_fractions(np.exp(grid), 1.0, p), axis=0)
+        log_ne = np.log(ne)
+        for start in range(0, e.size, 64):
+            chunk = e[start : start + 64]
+            with np.errstate(divide="ignore"):
+                u = np.log(chunk)[:, None] + log_ne[None, :]
+            f = spline(np.clip(u, lo, grid[-1]))
+            out[start : start + 64] = np.einsum("z,ezi->ei", w, f)
+    zero = e <= 0.0
+    out[zero] = matter_mass_fractions(0.0, 0.0, p)
     return out
 
 
@@ -454,7 +523,8 @@ class FlavourModel:
         return {
             "oscillation": None if self.params is None else asdict(self.params),
             "sun": {
-                "treatment": "3nu adiabatic MSW (P_c = 0), c13^2 V reduction, production-averaged",
+                "treatment": "3nu adiabatic MSW (P_c = 0), full 3x3 matter eigenstates at the "
+                             "production point, production-averaged",
                 "electron_density_profile": self.solar_profile,
             },
             "earth": {
