@@ -89,7 +89,7 @@ class ResponseStage:
         """Add the reconstructed fields to chunk ``k``; drop untriggered events if asked."""
         rng = np.random.default_rng(response_seed(entropy, k))
         ev.update(self.model.sample(rng, ev, self.sun_dir))
-        trig = ev["triggered"]
+        trig = ev["triggered"].view(bool)
         n_trig = int(np.count_nonzero(trig))
         self.n_generated += trig.size
         self.n_triggered += n_trig

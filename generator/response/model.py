@@ -55,6 +55,8 @@ PDG_ALPHA = 1000020040
 PDG_GAMMA = 22
 #: Points of the uniform energy tables.
 TABLE_POINTS = 12001
+#: Extent of the calibration table below g = 0 (MeV; negative g from dark-noise subtraction).
+G_NEGATIVE_MEV = 5.0
 #: Above this mean count the energy matrix uses the normal approximation of the Poisson law.
 EXACT_POISSON_MAX = 1000.0
 
@@ -105,10 +107,15 @@ class ResponseModel:
         t_grid = mu_c.grid
         start = max(pos[0] - 1, 0)
         g_max = float(g_vals[-1])
-        h_grid = np.linspace(0.0, g_max, TABLE_POINTS)
+        # h on [−g_neg, g_max]: below g = 0 it continues as h(0) + g (one lookup per event)
+        dg = g_max / (TABLE_POINTS - 1)
+        n_neg = int(np.ceil(G_NEGATIVE_MEV / dg))
+        h_grid = dg * np.arange(-n_neg, TABLE_POINTS)
         h_vals = np.interp(h_grid, g_vals[start:], t_grid[start:])
+        neg = h_grid < 0.0
+        h_vals[neg] = h_vals[n_neg] + h_grid[neg]
         self.tables = {"mu_c": mu_c, "mu_s": mu_s, "g": UniformTable(0.0, mu_c.dx, g_vals),
-                       "h": UniformTable(0.0, h_grid[1], h_vals)}
+                       "h": UniformTable(float(h_grid[0]), dg, h_vals)}
         a_phot2 = 1.0 / y
         a = p["resolution_stochastic"]
         a2 = a_phot2 if a is None else a * a
@@ -120,7 +127,7 @@ class ResponseModel:
         self.scalars = {
             "efficiency": eps, "yield": y, "dark": p["dark_noise_pe"],
             "a2_extra": max(a2 - a_phot2, 0.0), "a2": a2, "b2": p["resolution_constant"] ** 2,
-            "h0": float(h_vals[0]), "alpha_pe_per_mev": eps * ly / m.alpha_quenching,
+            "h0": float(h_vals[n_neg]), "alpha_pe_per_mev": eps * ly / m.alpha_quenching,
             "cherenkov_threshold_mev": cherenkov_threshold(m.refractive_index),
             "pe_ref": y * e_ref, "pe_ref_c": float(mu_c(e_ref)),
             "cherenkov_share_ref": float(mu_c(e_ref)) / (y * e_ref),
@@ -163,8 +170,12 @@ class ResponseModel:
 
     def calibrate(self, g: np.ndarray) -> np.ndarray:
         """Reconstructed kinetic energy (MeV) from the light-equivalent energy g (MeV)."""
-        return np.where(g >= 0.0, self.tables["h"](np.maximum(g, 0.0)),
-                        self.scalars["h0"] + g)
+        g = np.asarray(g)
+        out = self.tables["h"](g)
+        low = g < self.tables["h"].x0
+        if low.any():
+            out[low] = self.scalars["h0"] + g[low]
+        return out
 
     def light_equivalent(self, reco: np.ndarray) -> np.ndarray:
         """Inverse of :meth:`calibrate`: g(E_reco)."""
@@ -217,10 +228,11 @@ class ResponseModel:
             gt = np.maximum(g_true, 0.0)
             g = g + np.sqrt(s["a2_extra"] * gt + s["b2"] * gt * gt) * rng.standard_normal(n)
         reco = self.calibrate(g)
-        out: dict[str, np.ndarray] = {"reco_energy": reco, "n_pe": n_pe}
-        nz = np.maximum(n_pe, 1)
-        sig_v = (self.params["vertex_resolution_mm"] * np.sqrt(s["pe_ref"] / nz)).astype(
-            np.float32)
+        out: dict[str, np.ndarray] = {"reco_energy": reco.astype(np.float32),
+                                      "n_pe": n_pe.astype(np.int32)}
+        nz = np.maximum(n_pe, 1).astype(np.float32)
+        sig_v = np.float32(self.params["vertex_resolution_mm"] * math.sqrt(s["pe_ref"])) \
+            / np.sqrt(nz)
         out["reco_vertex"] = ev["vertex"] + sig_v[:, None] * rng.standard_normal(
             (n, 3), dtype=np.float32)
         if self.directional:
@@ -239,7 +251,8 @@ class ResponseModel:
         w = self.params["trigger_width_mev"]
         if w > 0.0:
             cut = cut + w * rng.standard_normal(n, dtype=np.float32)
-        out["triggered"] = (reco >= self.params["analysis_threshold_mev"]) & (reco >= cut)
+        trig = (reco >= self.params["analysis_threshold_mev"]) & (reco >= cut)
+        out["triggered"] = trig.view(np.uint8)
         return out
 
     def _direction(self, rng, ev, t, gamma, mu_c, n_c, n_pe) -> np.ndarray:
