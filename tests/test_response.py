@@ -128,25 +128,26 @@ def test_trigger_turn_on_matches_erfc():
         assert abs(z) < 4.0, (b, z)
 
 
-@pytest.mark.parametrize("medium, particle, energies", [
-    ("water", 11, [4.0, 6.0, 9.0]),
-    ("lab", 11, [0.3, 1.0]),
-    ("pc", 1000020040, [5.304]),
-    ("lab", 22, [1.46]),
+@pytest.mark.parametrize("medium, particle, energies, gamma", [
+    ("water", 11, [4.0, 6.0, 9.0], 0.0),
+    ("lab", 11, [0.3, 1.0], 0.0),
+    ("pc", 1000020040, [5.304], 0.0),
+    ("lab", 22, [1.46], 0.0),
+    ("lab", -11, [0.4], 1.022),
 ])
-def test_energy_matrix_matches_sampler(medium, particle, energies):
+def test_energy_matrix_matches_sampler(medium, particle, energies, gamma):
     # the deterministic P(reco bin, triggered | E) against 10⁵ sampled events per energy: χ²
     model = _model(medium)
     rng = np.random.default_rng(11)
     edges = np.linspace(0.0, 12.0, 241) if medium == "water" else np.linspace(0.0, 3.0, 301)
-    p = model.energy_matrix(np.array(energies), edges, particle)
+    p = model.energy_matrix(np.array(energies), edges, particle, gamma_energy=gamma)
     assert np.all(p >= -1e-12) and np.all(p.sum(axis=1) <= 1 + 1e-9)
     for i, e in enumerate(energies):
         n = 100_000
         if particle == 22:
             ev = _events(np.zeros(n), rng, 22, e)
         else:
-            ev = _events(np.full(n, e), rng, particle)
+            ev = _events(np.full(n, e), rng, particle, gamma if gamma else None)
         out = model.sample(rng, ev)
         h, _ = np.histogram(out["reco_energy"][out["triggered"] == 1], edges)
         expct = n * p[i]

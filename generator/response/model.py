@@ -274,7 +274,8 @@ class ResponseModel:
 
     # ------------------------------------------------------------------ deterministic
     def energy_matrix(self, e_true: np.ndarray, reco_edges: np.ndarray,
-                      particle: int = 11, sub_bins: int = 8) -> np.ndarray:
+                      particle: int = 11, sub_bins: int = 8, gamma_energy: float = 0.0
+                      ) -> np.ndarray:
         """P(reco_energy in bin j and triggered | deposit e_true[i], particle), shape (n, m).
 
         The same light model and parameters as :meth:`sample`: the Poisson law of n_pe
@@ -291,6 +292,11 @@ class ResponseModel:
             Increasing edges of the reconstructed-energy bins, MeV.
         particle : int
             PDG code (11, −11, 22, 1000020040; others are treated as electrons).
+        sub_bins : int
+            Sub-bins per reconstructed bin for the trigger-efficiency integral.
+        gamma_energy : float
+            Accompanying γ deposit (MeV, electron-equivalent) added to every row, e.g.
+            1.022 MeV of annihilation energy for a β⁺.
         """
         e_true = np.atleast_1d(np.asarray(e_true, dtype=np.float64))
         edges = np.asarray(reco_edges, dtype=np.float64)
@@ -309,6 +315,9 @@ class ResponseModel:
             mu_c, mu_s = self.mean_light(np.zeros_like(e_true), 11, e_true)
         else:
             mu_c, mu_s = self.mean_light(e_true, particle)
+        if gamma_energy > 0.0:
+            g_c, g_s = self.mean_light(np.zeros(1), 11, np.array([gamma_energy]))
+            mu_c, mu_s = mu_c + g_c, mu_s + g_s
         s = self.scalars
         y, d = s["yield"], s["dark"]
         g_t = (mu_c + mu_s) / y
