@@ -32,6 +32,8 @@ __all__ = [
     "SECONDS_PER_JULIAN_YEAR",
     "CLASSICAL_ELECTRON_RADIUS_CM",
     "MATTER_POTENTIAL_EV_PER_NA",
+    "MUON_MASS",
+    "TAU_MASS",
 ]
 
 _pc = _sc.physical_constants
@@ -41,6 +43,16 @@ FERMI_CONSTANT: float = _pc["Fermi coupling constant"][0] * 1e-6
 
 #: Electron mass m_e c² in MeV (CODATA via scipy.constants).
 ELECTRON_MASS: float = _pc["electron mass energy equivalent in MeV"][0]
+
+#: Muon mass m_μ c² in MeV (CODATA via scipy.constants).
+MUON_MASS: float = _pc["muon mass energy equivalent in MeV"][0]
+
+#: τ-lepton mass m_τ c² = 1776.86 ± 0.12 MeV (PDG, Review of Particle Physics 2022,
+#: R. L. Workman et al., Prog. Theor. Exp. Phys. 2022, 083C01, τ summary table) — from memory,
+#: not re-read from the table; scipy.constants (CODATA) does not provide m_τ. Enters only
+#: through ln(m_τ/m_μ) in the ν_τ charge-radius term (generator.radiative), where ±0.12 MeV
+#: changes κ_τ by 2e-7.
+TAU_MASS: float = 1776.86
 
 #: Fine-structure constant α (CODATA via scipy.constants).
 ALPHA: float = _pc["fine-structure constant"][0]

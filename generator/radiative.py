@@ -17,6 +17,18 @@ Provenance of the coefficients (be explicit about certainty):
   BKS appendix gives this form, and it is the one consistent with the leading-logarithm
   (collinear) structure of QED, which the first recollection (+(1 − z)) violates. Not yet
   confirmed against the printed appendix.
+* ν_τ: BKS give κ for ν_e and ν_μ only. κ differs between flavours through the neutrino
+  charge radius, whose charged-lepton loop depends on ln m_l (one-loop SM result:
+  ⟨r²_{ν_l}⟩ = (G_F/(4√2π²))[3 − 2 ln(m_l²/M_W²)], J. Bernabéu, J. Papavassiliou, J. Vidal,
+  Phys. Rev. Lett. 89, 101802 (2002), hep-ph/0206015, eq. for the charge radius — from memory;
+  the same ln m_l term sits in the κ^{(ν_l; e)} of W. J. Marciano, A. Sirlin, Phys. Rev. D 22,
+  2695 (1980) and A. Sarantakos, A. Sirlin, W. J. Marciano, Nucl. Phys. B 217, 84 (1983), used
+  by BKS). Only that term differs between ν_μ and ν_τ (no W box with external τ), so
+  κ_τ(T) ŝ² = κ_μ(T) ŝ² + (α/3π) ln(m_τ/m_μ)  [:func:`charge_radius_shift`]. The same
+  expression with ln(m_μ/m_e) reproduces the BKS constants themselves:
+  (α/3π) ln(m_μ/m_e) / 0.2317 = 0.01782 against κ_μ − κ_e = 0.9970 − 0.9791 = 0.0179
+  (tests/test_xsec.py). The T dependence of the τ (and μ) loop is of order 2mT/m_l² and is
+  neglected, as BKS do for the muon (coefficient −0.00037).
 * Combined electron + photon energy corrections (M. Passera, Phys. Rev. D 64, 113002 (2001),
   hep-ph/0011190) are NOT implemented: their formulas could not be obtained. The generator
   therefore models the electron-only spectrum.
@@ -31,7 +43,7 @@ import numpy as np
 from numpy.typing import ArrayLike
 from scipy.special import spence
 
-from generator.constants import ALPHA, ELECTRON_MASS
+from generator.constants import ALPHA, ELECTRON_MASS, MUON_MASS, TAU_MASS
 
 __all__ = [
     "RHO_NC",
@@ -41,6 +53,7 @@ __all__ = [
     "KAPPA_MU_1",
     "SIN2_THETA_W_BKS",
     "i_function",
+    "charge_radius_shift",
     "kappa",
     "ew_couplings",
     "collinear_factor",
@@ -93,15 +106,53 @@ def i_function(t: ArrayLike) -> np.ndarray:
     return np.where(small, tt / (15.0 * _M), full)
 
 
-def kappa(t: ArrayLike, electron_flavour: ArrayLike) -> np.ndarray:
-    """BKS κ(T) for ν_e (``electron_flavour`` True) or ν_μ, ν_τ (False).
+def charge_radius_shift(lepton_mass_from: float, lepton_mass_to: float) -> float:
+    """Change of the effective κ ŝ² between two neutrino flavours from the charge radius.
+
+    Δ(κ ŝ²) = (α/3π) ln(m_to/m_from): the charged-lepton-mass dependence of the one-loop
+    neutrino charge radius, ⟨r²_{ν_l}⟩ ∝ 3 − 2 ln(m_l²/M_W²) (Bernabéu, Papavassiliou & Vidal,
+    Phys. Rev. Lett. 89, 101802 (2002), from memory), entering νe scattering as
+    ŝ² → ŝ² − (√2πα/3G_F)⟨r²⟩ (module docstring).
+
+    Parameters
+    ----------
+    lepton_mass_from, lepton_mass_to : float
+        Charged-lepton masses in MeV.
+
+    Returns
+    -------
+    float
+        Δ(κ ŝ²), dimensionless (positive for a heavier lepton).
+    """
+    return ALPHA / (3.0 * np.pi) * float(np.log(lepton_mass_to / lepton_mass_from))
+
+
+#: Δ(κ ŝ²) of ν_τ relative to ν_μ, (α/3π) ln(m_τ/m_μ) ≈ 2.185e-3.
+TAU_SHIFT: float = charge_radius_shift(MUON_MASS, TAU_MASS)
+
+
+def _generation(flavour: ArrayLike) -> np.ndarray:
+    """0 (ν_e), 1 (ν_μ), 2 (ν_τ) from a generation index or a legacy is-ν_e boolean."""
+    f = np.asarray(flavour)
+    if f.dtype == bool:
+        return np.where(f, 0, 1)
+    return f.astype(np.int64)
+
+
+def kappa(t: ArrayLike, generation: ArrayLike, sin2_theta_w: float = 0.2317) -> np.ndarray:
+    """BKS κ(T) for ν_e (generation 0), ν_μ (1) and ν_τ (2).
+
+    κ_e = 0.9791 + 0.0097 I(T), κ_μ = 0.9970 − 0.00037 I(T) (BKS, from memory);
+    κ_τ = κ_μ + (α/3π) ln(m_τ/m_μ)/ŝ² (charge-radius term, module docstring).
 
     Parameters
     ----------
     t : array_like
         Electron kinetic energy T in MeV.
-    electron_flavour : array_like of bool
+    generation : array_like of int (or bool: True = ν_e, False = ν_μ)
         Broadcast against ``t``.
+    sin2_theta_w : float
+        ŝ_Z² used with κ (only the ν_τ shift depends on it).
 
     Returns
     -------
@@ -109,23 +160,27 @@ def kappa(t: ArrayLike, electron_flavour: ArrayLike) -> np.ndarray:
         κ(T), dimensionless.
     """
     i = i_function(t)
-    return np.where(electron_flavour, KAPPA_E_0 + KAPPA_E_1 * i, KAPPA_MU_0 + KAPPA_MU_1 * i)
+    gen = _generation(generation)
+    k_mu = KAPPA_MU_0 + KAPPA_MU_1 * i
+    k_tau = k_mu + TAU_SHIFT / sin2_theta_w
+    return np.where(gen == 0, KAPPA_E_0 + KAPPA_E_1 * i, np.where(gen == 2, k_tau, k_mu))
 
 
 def ew_couplings(
-    t: ArrayLike, electron_flavour: ArrayLike, sin2_theta_w: float
+    t: ArrayLike, generation: ArrayLike, sin2_theta_w: float
 ) -> tuple[np.ndarray, np.ndarray]:
     """Electroweak-corrected chiral couplings g_L(T), g_R(T) for neutrinos (positive convention).
 
-    BKS: ν_e: g_L = ρ(½ − κ_e ŝ²) − 1, g_R = −ρ κ_e ŝ²; ν_μ,τ: g_L = ρ(½ − κ_μ ŝ²),
-    g_R = −ρ κ_μ ŝ². Returned with the overall sign flipped (g_L(ν_e) → +0.723 at T → 0).
+    BKS: ν_e: g_L = ρ(½ − κ_e ŝ²) − 1, g_R = −ρ κ_e ŝ²; ν_μ,τ: g_L = ρ(½ − κ_l ŝ²),
+    g_R = −ρ κ_l ŝ² (κ_τ from :func:`kappa`). Returned with the overall sign flipped
+    (g_L(ν_e) → +0.723 at T → 0).
 
     Parameters
     ----------
     t : array_like
         Electron kinetic energy T in MeV.
-    electron_flavour : array_like of bool
-        True for ν_e (charged current present), broadcast against ``t``.
+    generation : array_like of int (or bool: True = ν_e)
+        0 ν_e (charged current present), 1 ν_μ, 2 ν_τ; broadcast against ``t``.
     sin2_theta_w : float
         MS-bar ŝ_Z² at M_Z.
 
@@ -134,10 +189,11 @@ def ew_couplings(
     tuple of numpy.ndarray
         (g_L, g_R), dimensionless.
     """
-    k = kappa(t, electron_flavour)
+    gen = _generation(generation)
+    k = kappa(t, gen, sin2_theta_w)
     rks = RHO_NC * k * sin2_theta_w
     g_r = rks
-    g_l = np.where(electron_flavour, 1.0 - 0.5 * RHO_NC + rks, -0.5 * RHO_NC + rks)
+    g_l = np.where(gen == 0, 1.0 - 0.5 * RHO_NC + rks, -0.5 * RHO_NC + rks)
     return g_l, g_r
 
 
@@ -360,4 +416,4 @@ def qed_factors(energy: ArrayLike, t: ArrayLike) -> tuple[np.ndarray, np.ndarray
     )
 
 
-__all__ += ["qed_factors"]
+__all__ += ["qed_factors", "TAU_SHIFT"]

@@ -11,10 +11,11 @@ Physics model
   g_L = ±½ + s², g_R = s² (+ for ν_e, which has the charged current); ν̄: g_L ↔ g_R.
 * ``corrections="radiative"``: one-loop electroweak couplings g(T) and QED factors of
   J. N. Bahcall, M. Kamionkowski, A. Sirlin, Phys. Rev. D 51, 6146 (1995) (see
-  :mod:`generator.radiative`), electron-only energy observable. For antineutrinos the QED
-  factor f₋ stays with the flat helicity structure (g_R² for ν̄) and f₊ with the (1 − z)²
-  one, following the helicity-structure argument (practice attributed to Sarantakos, Sirlin &
-  Marciano, Nucl. Phys. B 217, 84 (1983), from memory).
+  :mod:`generator.radiative`), electron-only energy observable; ν_τ gets the ν_μ κ plus the
+  charge-radius term (α/3π) ln(m_τ/m_μ) in κ ŝ² (:func:`generator.radiative.kappa`). For
+  antineutrinos the QED factor f₋ stays with the flat helicity structure (g_R² for ν̄) and
+  f₊ with the (1 − z)² one, following the helicity-structure argument (practice attributed
+  to Sarantakos, Sirlin & Marciano, Nucl. Phys. B 217, 84 (1983), from memory).
 * Magnetic moment (P. Vogel, J. Engel, Phys. Rev. D 39, 3378 (1989)), added incoherently:
   dσ/dT = π r_e² (μ_ν/μ_B)² (1/T − 1/E).
 * Flavour-diagonal NSI with electrons (normalisation of e.g. J. Barranco et al.,
@@ -220,9 +221,9 @@ def sigma_magnetic(energy: ArrayLike, magnetic_moment: float, t_min: float) -> n
 
 def _couplings(model: XsecModel, t: np.ndarray, pdg: np.ndarray):
     """Neutrino-convention g_L, g_R (T-dependent for radiative), NSI included."""
-    is_e, _, gen = _flavour_arrays(pdg)
+    _, _, gen = _flavour_arrays(pdg)
     if model.corrections == "radiative":
-        g_l, g_r = radiative.ew_couplings(t, is_e, model.sin2_theta_w)
+        g_l, g_r = radiative.ew_couplings(t, gen, model.sin2_theta_w)
     else:
         g_l, g_r = tree_couplings(pdg, model.sin2_theta_w)
     if any(model.nsi_eps_l) or any(model.nsi_eps_r):
