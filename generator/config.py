@@ -24,6 +24,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import ConfigError
+from .spectra.boron8_measured import B8_DEFAULT, B8_VARIANTS
 from .userfiles import clip, read_user_text
 
 __all__ = ["Config", "DetectorConfig", "ExposureConfig", "SourcesConfig", "CustomSourceConfig",
@@ -354,8 +355,7 @@ def _parse_sources(t: Any, base_dir: Path | None) -> SourcesConfig:
     include = s._get("include", list(KNOWN_SOURCES))
     if not isinstance(include, list) or not all(isinstance(x, str) for x in include):
         raise ConfigError(f"sources.include: expected a list of source names, got {_fmt(include)}")
-    b8_shape = s.string("b8_shape", "nominal",
-                        choices=("nominal", "plus1sigma", "minus1sigma", "measured"))
+    b8_shape = s.string("b8_shape", B8_DEFAULT, choices=B8_VARIANTS)
     scale = _pairs(s._get("scale", {}), "sources.scale", 0.0, False)
     override = _pairs(s._get("flux_override", {}), "sources.flux_override", 0.0, False)
     custom_raw = s._get("custom", [])

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from scipy import constants as sc
 from scipy import stats
 
 from generator.errors import ConfigError, DataFileError
@@ -196,64 +197,118 @@ def test_coulomb_wronskian_and_regular_function():
 
 
 # ----------------------------------------------------------------------------- 8B
-def test_b8_mean_peak_and_tail():
+def test_b8_default_is_the_measured_spectrum():
+    """Default ⁸B shape = the measured spectrum of Winter et al., PRC 73, 025503 (2006)
+    (table in generator/data/spectra, mean 6.770 MeV, peak bin 6.5 MeV)."""
+    from generator.spectra.boron8_measured import measured_b8_table
+
+    te, tp, _ = measured_b8_table()
     sp = get_spectrum("8B")
-    # Mean of the standard ⁸B spectrum 6.735 MeV (Bahcall et al., PRC 54, 411 (1996); from
-    # memory, consistent with the luminosity-constraint coefficient). Tolerance 0.5 %.
-    assert sp.mean() == pytest.approx(6.735, rel=5e-3)
+    assert sp.mean() == get_spectrum("8B", "measured").mean()
+    assert sp.mean() == pytest.approx(np.trapezoid(te * tp, te), rel=1e-4)
+    np.testing.assert_allclose(sp.pdf(te[1:-3]), tp[1:-3], rtol=2e-3, atol=1e-5)
+    # Mean of the earlier standard spectrum 6.735 MeV (Bahcall et al., PRC 54, 411 (1996);
+    # from memory); the Winter et al. mean is stated to be within about 1 % of it (from
+    # memory) -> tolerance 1 %.
+    assert sp.mean() == pytest.approx(6.735, rel=1e-2)
     e, f = sp.grid()
     # Peak ≈ 6.4–6.5 MeV (Bahcall et al. 1996 / Winter et al. 2006 figures; from memory).
     assert 6.35 <= e[np.argmax(f)] <= 6.55
-    # Negligible above ~16 MeV (sources.md §2.5, from memory): < 1e-5 of the spectrum.
-    above = np.trapezoid(np.where(e >= 16.0, f, 0.0), e)
-    assert above < 1e-5
+    # Zero above the last non-zero measured bin (15.2 MeV); grid to the kinematic end 17.05 MeV.
+    assert np.trapezoid(np.where(e >= 15.3, f, 0.0), e) < 1e-6
     assert e[-1] == pytest.approx(17.05, abs=0.01)
 
 
-def test_b8_variants_follow_the_measured_one_sigma():
-    """±1σ variants = model × (1 ± ΔP/P) of the measured spectrum (Winter et al., PRC 73,
-    025503 (2006)); applied to the measured spectrum itself that column moves the mean from
-    6.770 to 6.761 (+ΔP) and 6.779 MeV (−ΔP), i.e. ∓0.13 % (computed from the table)."""
+def test_b8_variants_are_measured_plus_minus_one_sigma():
+    """±1σ variants = measured P ± ΔP (published, fully correlated 1σ column of Winter et al.,
+    PRC 73, 025503 (2006)), renormalised; the column moves the mean from 6.770 to 6.761 (+ΔP)
+    and 6.779 MeV (−ΔP), ∓0.13 % (computed from the table), so the band is centred on the
+    measurement."""
+    from generator.spectra.boron8_measured import measured_b8_table
+
+    te, tp, tdp = measured_b8_table()
     m0 = get_spectrum("8B").mean()
     mp = get_spectrum("8B", "plus1sigma").mean()
     mm = get_spectrum("8B", "minus1sigma").mean()
     assert mp < m0 < mm
-    assert (mp - m0) / m0 == pytest.approx(-0.0013, abs=4e-4)
-    assert (mm - m0) / m0 == pytest.approx(+0.0013, abs=4e-4)
+    assert mp == pytest.approx(6.761, abs=6e-4)
+    assert mm == pytest.approx(6.779, abs=6e-4)
+    for name, sign in (("plus1sigma", 1.0), ("minus1sigma", -1.0)):
+        ref = tp + sign * tdp
+        ref = ref / np.trapezoid(ref, te)
+        np.testing.assert_allclose(get_spectrum("8B", name).pdf(te[1:-3]), ref[1:-3],
+                                   rtol=2e-3, atol=1e-5)
 
 
 def test_b8_model_against_measured_spectrum():
-    """The physics model against the measured spectrum of Winter et al., PRC 73, 025503
-    (2006) (table shipped in generator/data/spectra; mean 6.770 MeV, peak bin 6.5 MeV).
+    """The R-matrix physics model (``b8_shape = "model"``) against the measured spectrum of
+    Winter et al., PRC 73, 025503 (2006) (mean 6.770 MeV, peak bin 6.5 MeV).
 
-    Tolerances: mean 0.5 % (issue requirement); peak within one 0.1 MeV bin; shape within
-    2.5 % of the measured density over 2–13 MeV, where it holds > 10 % of its maximum
-    (documents the model's residual: ≤ 2.1 %, < 1 % over 4–12 MeV); < 1e-4 of the model
-    above the last non-zero measured bin (15.2 MeV).
+    Tolerances document the model's residual with the published weak-magnetism term:
+    mean within 0.5 % (it is +0.44 %); peak within one 0.1 MeV bin; shape within 6 % of the
+    measured density over 2–13 MeV (residual ≤ 5.5 %) and 4 % over 4–12 MeV (≤ 3.6 %);
+    < 1e-4 of the model above the last non-zero measured bin (15.2 MeV).
     """
     from generator.spectra.boron8_measured import measured_b8_table
 
     te, tp, _ = measured_b8_table()
     mean_measured = np.trapezoid(te * tp, te)
     assert mean_measured == pytest.approx(6.770, abs=5e-4)
-    model = get_spectrum("8B")
+    model = get_spectrum("8B", "model")
     assert model.mean() == pytest.approx(mean_measured, rel=5e-3)
     e, f = model.grid()
     assert abs(e[np.argmax(f)] - te[np.argmax(tp)]) <= 0.1
     sel = (te >= 2.0) & (te <= 13.0)
     ratio = model.pdf(te[sel]) / tp[sel]
-    assert np.max(np.abs(ratio - 1.0)) < 0.025
+    assert np.max(np.abs(ratio - 1.0)) < 0.06
+    mid = (te[sel] >= 4.0) & (te[sel] <= 12.0)
+    assert np.max(np.abs(ratio[mid] - 1.0)) < 0.04
     tail = np.trapezoid(np.where(e > 15.25, f, 0.0), e)
     assert tail < 1e-4
+    assert e[-1] == pytest.approx(17.05, abs=0.01)
 
 
-def test_b8_measured_variant_is_the_table():
-    from generator.spectra.boron8_measured import measured_b8_table
+def test_b8_weak_magnetism_term_and_its_effect_on_the_mean():
+    """Weak magnetism of the model: the b-terms of the allowed Gamow–Teller shape factor in
+    Holstein's notation (Holstein, RMP 46, 789 (1974); Hayen et al., RMP 90, 015008 (2018)),
+    β⁺: δ = −(1/3)(b/Ac)(4E − E₀ − 2m_e²/E)/M_N.
 
-    te, tp, _ = measured_b8_table()
-    sp = get_spectrum("8B", "measured")
-    assert sp.mean() == pytest.approx(np.trapezoid(te * tp, te), rel=1e-4)
-    np.testing.assert_allclose(sp.pdf(te[1:-3]), tp[1:-3], rtol=2e-3, atol=1e-5)
+    No published number for the WM shift of ⟨E_ν⟩ of ⁸B could be reached (Winter et al. 2006
+    and Bahcall et al. 1996 include recoil order but the values were not re-read), so the
+    shift is checked against the first-order estimate of that formula, Δ⟨E_ν⟩ ≈
+    (4/3)(b/Ac) Var(E_ν)/M_N (δ linear in E_e = E₀ − E_ν at fixed E₀), within 20 % (the
+    spread of E₀ over the αα continuum lowers the exact shift by 15 %) — a consistency check
+    with the published expression, not an external number.
+    """
+    import dataclasses
+
+    from generator.spectra import boron8 as b8
+
+    # slope of the shape factor in the positron energy: −(4/3)(b/Ac)/M_N per MeV (the
+    # Gell-Mann CVC weak-magnetism slope in Holstein's notation)
+    m_n = 0.5 * (sc.physical_constants["proton mass energy equivalent in MeV"][0]
+                 + sc.physical_constants["neutron mass energy equivalent in MeV"][0])
+    e_tot = np.array([5.0, 6.0])
+    w = b8.weak_magnetism_factor(e_tot, 15.0, 7.0)
+    # (2/3)(b/Ac) m_e²/(M_N E) term removed before taking the slope
+    m_e = sc.physical_constants["electron mass energy equivalent in MeV"][0]
+    lin = w - 7.0 * 2.0 * m_e**2 / (3.0 * m_n * e_tot)
+    assert (lin[1] - lin[0]) == pytest.approx(-(4.0 / 3.0) * 7.0 / m_n, rel=1e-12)
+    model = b8.Boron8Model()
+    no_wm = dataclasses.replace(model, b_over_ac=0.0)
+    b8.B8_MODELS.setdefault("test-no-wm", no_wm)
+    e, f = b8.boron8_spectrum("nominal")
+    _, f0 = b8.boron8_spectrum("test-no-wm")
+    mean, mean0 = np.trapezoid(e * f, e), np.trapezoid(e * f0, e)
+    var0 = np.trapezoid((e - mean0) ** 2 * f0, e)
+    estimate = (4.0 / 3.0) * model.b_over_ac * var0 / m_n
+    assert mean - mean0 == pytest.approx(estimate, rel=0.2)
+    assert 0.008 < (mean - mean0) / mean0 < 0.011  # +0.94 % for b/Ac = 7
+
+
+def test_b8_unknown_shape_names_the_allowed_values():
+    with pytest.raises(ConfigError, match="measured"):
+        get_spectrum("8B", "wide")
 
 
 # ----------------------------------------------------------------------------- sampling

@@ -2,15 +2,15 @@
 
 The measured spectrum of Winter et al., Phys. Rev. C 73, 025503 (2006), nucl-ex/0406019, is
 shipped as ``generator/data/spectra/b8_measured_2006.txt`` (0.1 MeV bins, density P and its
-signed, fully correlated 1σ shift ΔP; provenance in the file header). It serves three purposes:
+signed, fully correlated 1σ shift ΔP; provenance in the file header). It is
 
-* the reference against which the physics model of :mod:`generator.spectra.boron8` is tested
-  (mean, peak, shape, endpoint region);
-* the definition of the ±1σ shape variants of the model: f_±(E) = f_model(E) · [1 ± ΔP(E)/P(E)],
-  renormalised, i.e. the model with the measured relative 1σ shape uncertainty applied (the
-  published convention of the table: +ΔP softens the spectrum, ⟨E⟩ −0.13 %);
-* an optional alternative shape (``variant = "measured"``), piecewise linear through the
-  bin centres with P(0) = 0.
+* the default ⁸B shape (``sources.b8_shape = "measured"``), piecewise linear through the bin
+  centres with P(0) = 0;
+* the source of the ±1σ shape variants ``"plus1sigma"`` / ``"minus1sigma"``:
+  P ± ΔP, renormalised (the published convention of the table: +ΔP softens the spectrum,
+  ⟨E⟩ −0.13 %), so the band is centred on the measurement;
+* the reference against which the R-matrix physics model of :mod:`generator.spectra.boron8`
+  (``b8_shape = "model"``) is tested (mean, peak, shape, endpoint region).
 """
 
 from __future__ import annotations
@@ -23,10 +23,12 @@ import numpy as np
 from generator.errors import DataFileError
 from generator.spectra.boron8 import boron8_spectrum
 
-__all__ = ["B8_VARIANTS", "measured_b8_table", "b8_variant_spectrum"]
+__all__ = ["B8_DEFAULT", "B8_VARIANTS", "measured_b8_table", "b8_variant_spectrum"]
 
-#: Names of the ⁸B spectrum variants (``sources.b8_shape``).
-B8_VARIANTS: tuple[str, ...] = ("nominal", "plus1sigma", "minus1sigma", "measured")
+#: Names of the ⁸B spectrum variants (``sources.b8_shape``); the first is the default.
+B8_VARIANTS: tuple[str, ...] = ("measured", "plus1sigma", "minus1sigma", "model")
+#: Default ⁸B shape (what ``variant="nominal"`` means for ⁸B in :func:`b8_variant_spectrum`).
+B8_DEFAULT: str = "measured"
 
 _TABLE = "data/spectra/b8_measured_2006.txt"
 
@@ -64,7 +66,7 @@ def b8_variant_spectrum(variant: str, n_nu: int = 4001) -> tuple[np.ndarray, np.
     Parameters
     ----------
     variant : str
-        One of :data:`B8_VARIANTS`.
+        One of :data:`B8_VARIANTS`, or ``"nominal"`` (the default, :data:`B8_DEFAULT`).
     n_nu : int
         Number of grid points.
 
@@ -73,16 +75,17 @@ def b8_variant_spectrum(variant: str, n_nu: int = 4001) -> tuple[np.ndarray, np.
     tuple of numpy.ndarray
         ``(E_ν [MeV], pdf [1/MeV])`` with unit area (trapezoid).
     """
-    e, f = boron8_spectrum("nominal", n_nu)
     if variant == "nominal":
+        variant = B8_DEFAULT
+    e, f = boron8_spectrum("nominal", n_nu)
+    if variant == "model":
         return e, f
     te, tp, tdp = measured_b8_table()
     if variant == "measured":
         pdf = np.interp(e, te, tp, right=0.0)
     elif variant in ("plus1sigma", "minus1sigma"):
-        rel = np.divide(tdp, tp, out=np.zeros_like(tp), where=tp > 0.0)
         sign = 1.0 if variant == "plus1sigma" else -1.0
-        pdf = f * (1.0 + sign * np.interp(e, te, rel, right=0.0))
+        pdf = np.interp(e, te, tp + sign * tdp, right=0.0)
     else:
         raise KeyError(variant)
     pdf = np.maximum(pdf, 0.0)

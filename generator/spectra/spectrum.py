@@ -237,9 +237,10 @@ def get_spectrum(source: str, variant: str = "nominal") -> Spectrum:
     source : str
         One of ``SOURCE_NAMES``.
     variant : str, optional
-        ``"nominal"``; for ``"8B"`` also ``"plus1sigma"`` / ``"minus1sigma"`` (the model
-        with the measured 1σ shape shift applied) and ``"measured"`` (the measured spectrum of
-        Winter et al. 2006), see :mod:`generator.spectra.boron8_measured`.
+        ``"nominal"`` (the default shape); for ``"8B"`` also ``"measured"`` (the measured
+        spectrum of Winter et al. 2006, which is the ⁸B default), ``"plus1sigma"`` /
+        ``"minus1sigma"`` (measured ± its published 1σ shape column) and ``"model"`` (the
+        R-matrix physics model), see :mod:`generator.spectra.boron8_measured`.
 
     Returns
     -------
@@ -253,7 +254,7 @@ def get_spectrum(source: str, variant: str = "nominal") -> Spectrum:
     """
     if source not in SOURCE_NAMES:
         raise ConfigError(f"unknown source {source!r}; allowed: {', '.join(SOURCE_NAMES)}")
-    allowed = B8_VARIANTS if source == "8B" else ("nominal",)
+    allowed = ("nominal", *B8_VARIANTS) if source == "8B" else ("nominal",)
     if variant not in allowed:
         raise ConfigError(
             f"unknown spectrum variant {variant!r} for source {source!r}; allowed: "
