@@ -36,7 +36,7 @@ KNOWN_SOURCES = ("pp", "pep", "hep", "7Be", "8B", "13N", "15O", "17F")
 RESERVED_SECTIONS = {
     "backgrounds": "the radioactive-background stage is not implemented yet",
 }
-COMPRESSIONS = ("blosc-lz4", "zstd", "lzf", "gzip", "none")
+COMPRESSIONS = ("deflate", "blosc-lz4", "zstd", "lzf", "gzip", "none")
 COUNT_MODES = ("fixed", "expected", "poisson")
 #: Most events one run may produce (every count mode and --events).
 MAX_EVENTS = 10**12
@@ -470,7 +470,7 @@ def _parse_output(t: Any) -> OutputConfig:
     s = _Section(t, "output")
     cfg = OutputConfig(
         path=s.string("path"),
-        compression=s.string("compression", "blosc-lz4", choices=COMPRESSIONS),
+        compression=s.string("compression", "deflate", choices=COMPRESSIONS),
         compression_level=s.integer("compression_level", lo=0, hi=9, optional=True),
     )
     s.finish()

@@ -51,7 +51,7 @@ from .exposure import Exposure, load_run_list, parse_utc
 from .geometry import FiducialVolume, make_fiducial
 from .io.preflight import check_target
 from .io.schema import FRAME_CONVENTION, LAYOUT_VERSION, empty_chunk
-from .io.writer import HDF5Sink, MemorySink
+from .io.writer import HDF5Sink, MemorySink, chunk_rows_for
 from .media import Medium, get_medium, target_electrons
 from .oscillation import PRESETS, FlavourModel, OscillationParams
 from .recoil import RecoilSampler
@@ -572,7 +572,7 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
     if own_sink:
         sink = HDF5Sink(path, output_fields(cfg), compression=cfg.output.compression,
                         compression_level=cfg.output.compression_level,
-                        chunk_rows=min(chunk, 1 << 16), force=force)
+                        chunk_rows=chunk_rows_for(chunk), force=force)
     try:
         for k in range(n_chunks):
             m = min(chunk, n_total - k * chunk)

@@ -109,6 +109,7 @@ def describe(path: str | Path, chunk: int = 1 << 20) -> dict[str, Any]:
         intervals = ev.table("exposure/intervals")
         sources = ev.table("sources") if "sources" in ev._f else {}
         compression = str(ev.events.attrs.get("compression", attrs.get("compression", "?")))
+        recorded = ev.filter_info           # what the file itself says it needs
     expected = {}
     if sources:
         for name, code, exp in zip(sources["name"], sources["code"],
@@ -147,7 +148,10 @@ def describe(path: str | Path, chunk: int = 1 << 20) -> dict[str, Any]:
                    "threshold": _q(float(attrs.get("threshold_mev", float("nan"))), "MeV")},
         "models": _config_choices(attrs),
         "compression": {"filter": compression,
-                        "plugin_needed": _FILTER_NEEDS.get(compression, "unknown filter")},
+                        "pipeline": recorded.get("filter_pipeline", "not recorded"),
+                        "plugin_needed": (recorded["filter_plugin"]
+                                          if recorded.get("filter_plugin_required")
+                                          else _FILTER_NEEDS.get(compression, "unknown filter"))},
         "provenance": {k: attrs.get(k) for k in _PROVENANCE_KEYS if k in attrs},
     }
     return out
@@ -208,7 +212,8 @@ def summarise(path: Path, chunk: int = 1 << 20) -> str:
     lines.append(f"target: {t['electrons']:.4e} electrons, fiducial "
                  f"{t['fiducial_mass']['value']:.4g} kt, threshold {t['threshold']['value']:g} MeV")
     c = d["compression"]
-    lines.append(f"compression: {c['filter']} (plugin needed to read: {c['plugin_needed']})")
+    lines.append(f"compression: {c['filter']} (plugin needed to read: {c['plugin_needed']}; "
+                 f"filters: {c.get('pipeline', 'not recorded')})")
     lines.append("provenance:")
     for k, v in d["provenance"].items():
         lines.append(f"  {k}: {v}")

@@ -116,6 +116,19 @@ class EventFile:
         """Root attributes (provenance)."""
         return {k: _decode(v) for k, v in self._f.attrs.items()}
 
+    @property
+    def filter_info(self) -> dict[str, Any]:
+        """The filter a file needs: name, pipeline and whether an HDF5 plugin is required.
+
+        Files written before the attributes existed report the ``/events`` compression only.
+        """
+        ev = {k: _decode(v) for k, v in self.events.attrs.items()}
+        info = {k: ev[k] for k in ("compression", "filter_pipeline", "filter_plugin_required",
+                                   "filter_plugin") if k in ev}
+        if "filter_plugin_required" in info:
+            info["filter_plugin_required"] = bool(info["filter_plugin_required"])
+        return info
+
     def units(self, field: str) -> str:
         """The unit attribute of a field."""
         return str(_decode(self.events[field].attrs["units"]))

@@ -4,55 +4,67 @@ Both implement the same small interface used by :mod:`generator.pipeline`:
 ``write_chunk(chunk)``, ``write_table(path, data, units, description)``,
 ``set_attrs(attrs)``, ``set_field_attrs(name, attrs)``, ``commit()`` and ``abort()``.
 
-The HDF5 backend writes into a temporary file beside the target (``.<name>.<pid>.tmp``) and
-renames it onto the final name only in :meth:`HDF5Sink.commit`, so an interrupted or failed run
-never leaves a file under the final name. Datasets are created empty with an unlimited first
-axis, chunked along events, compressed and protected by Fletcher-32 checksums, and grow by one
-append per generated chunk, so memory stays bounded whatever the event count.
+The HDF5 backend writes into a temporary file beside the target (``.<name>.tmp``, guarded by
+the lock ``.<name>.lock``, see :mod:`generator.io.lock`) and renames it onto the final name
+only in :meth:`HDF5Sink.commit`, so an interrupted or failed run never leaves a file under the
+final name. Datasets are created empty with an unlimited first axis, chunked along events
+(``chunk_rows`` rows per HDF5 chunk), filtered and protected by Fletcher-32 checksums, and
+grow chunk by chunk, so memory stays bounded whatever the event count.
+
+With the default filter (``deflate``, see :mod:`generator.io.filters`) the sink encodes full
+HDF5 chunks in a thread pool while the caller generates the next events, and stores them with
+direct chunk writes; other filters go through h5py's own filter pipeline. After each
+``write_chunk`` call whose chunks are all on disk, the file is flushed and the attribute
+``progress_events`` records how many leading events are complete (what ``--resume`` uses).
 """
 
 from __future__ import annotations
 
 import os
+from collections import deque
 from collections.abc import Mapping, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
 from pathlib import Path
 from typing import Any
 
 import h5py
 import numpy as np
 
-from ..errors import ConfigError, OutputExistsError, SunrecoilError
+from ..errors import InputError, OutputExistsError, SunrecoilError
+from .filters import DEFAULT_FILTER, encode_deflate, filter_spec
+from .lock import RunLock, temp_path_for
 from .schema import Field
 
-__all__ = ["HDF5Sink", "MemorySink", "compression_kwargs", "temp_path_for"]
+__all__ = ["HDF5Sink", "MemorySink", "compression_kwargs", "temp_path_for",
+           "check_output_path", "chunk_rows_for", "PROGRESS_ATTR"]
+
+#: Root attribute of a temporary file: number of leading events known complete on disk.
+PROGRESS_ATTR = "progress_events"
 
 
 def compression_kwargs(name: str, level: int | None = None) -> dict[str, Any]:
     """h5py dataset keyword arguments for a compression choice.
 
     ``blosc-lz4`` (Blosc with LZ4 and byte shuffle) and ``zstd`` need the ``hdf5plugin``
-    package (or the corresponding HDF5 filter plugins) to read; ``gzip`` and ``lzf`` ship with
-    h5py, and ``gzip`` is readable by any HDF5 build.
+    package (or the corresponding HDF5 filter plugins) to read; ``deflate`` (shuffle +
+    deflate) and ``gzip`` are readable by any HDF5 build; ``lzf`` ships with h5py.
     """
+    filter_spec(name)
     if name == "none":
         return {}
+    if name == "deflate":
+        return {"shuffle": True, "compression": "gzip",
+                "compression_opts": 1 if level is None else level}
     if name == "gzip":
         return {"compression": "gzip", "compression_opts": 1 if level is None else level}
     if name == "lzf":
         return {"compression": "lzf"}
-    if name in ("blosc-lz4", "zstd"):
-        import hdf5plugin
+    import hdf5plugin
 
-        if name == "blosc-lz4":
-            return dict(hdf5plugin.Blosc(cname="lz4", clevel=5 if level is None else level,
-                                         shuffle=hdf5plugin.Blosc.SHUFFLE))
-        return dict(hdf5plugin.Zstd(clevel=3 if level is None else level))
-    raise ConfigError(f"output.compression: unknown filter {name!r}")
-
-
-def temp_path_for(path: Path) -> Path:
-    """Name of the temporary file written before the atomic rename onto ``path``."""
-    return path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    if name == "blosc-lz4":
+        return dict(hdf5plugin.Blosc(cname="lz4", clevel=5 if level is None else level,
+                                     shuffle=hdf5plugin.Blosc.SHUFFLE))
+    return dict(hdf5plugin.Zstd(clevel=3 if level is None else level))
 
 
 def _attr_value(v: Any) -> Any:
@@ -79,53 +91,179 @@ class HDF5Sink:
     fields : sequence of Field
         Event fields (datasets under ``/events``).
     compression : str
-        One of ``blosc-lz4``, ``zstd``, ``lzf``, ``gzip``, ``none``.
+        One of ``deflate`` (default), ``blosc-lz4``, ``zstd``, ``lzf``, ``gzip``, ``none``.
     compression_level : int, optional
         Filter level (meaning depends on the filter).
     chunk_rows : int
         HDF5 chunk length along the event axis.
     force : bool
-        Overwrite an existing file at ``path`` (only at commit time).
+        Overwrite an existing file at ``path`` (only at commit time) and discard a stale
+        temporary file of a killed run.
+    threads : int, optional
+        Encoder threads of the ``deflate`` filter (default: number of CPUs, at most 4).
+    resume : bool
+        Reopen the temporary file of a killed run and continue after its last complete
+        events (see :meth:`resume_from`); the caller checks that the run is the same one.
     """
 
-    def __init__(self, path: str | Path, fields: Sequence[Field], *, compression: str = "lzf",
-                 compression_level: int | None = None, chunk_rows: int = 65536,
-                 force: bool = False):
+    def __init__(self, path: str | Path, fields: Sequence[Field], *,
+                 compression: str = DEFAULT_FILTER, compression_level: int | None = None,
+                 chunk_rows: int = 65536, force: bool = False, threads: int | None = None,
+                 resume: bool = False):
         self.path = Path(path)
         self.force = force
         check_output_path(self.path, force)
         self.fields = tuple(fields)
         self.tmp = temp_path_for(self.path)
+        self.spec = filter_spec(compression)
+        self.level = compression_level
+        self.rows = max(1, min(int(chunk_rows), 1 << 20))
         self.path.parent.mkdir(parents=True, exist_ok=True)
-        self._filters = compression_kwargs(compression, compression_level)
+        self._lock = RunLock(self.path).acquire()
+        try:
+            self._open(resume, compression)
+        except BaseException:
+            self._lock.release()
+            raise
+        self.n_written = 0            # rows accepted (pending rows included)
+        self._row0 = 0                # first row of the pending buffer
+        self._pending: dict[str, list[np.ndarray]] = {f.name: [] for f in self.fields}
+        self._n_pending = 0
+        self._jobs: deque[tuple[int, str, int, int, Future | np.ndarray]] = deque()
+        self._batch = 0
+        n_threads = threads or min(4, os.cpu_count() or 1)
+        self._pool = ThreadPoolExecutor(n_threads) if self.spec.direct else None
+
+    def _open(self, resume: bool, compression: str) -> None:
+        if resume:
+            if not self.tmp.exists():
+                raise InputError(f"--resume: no partial run to continue for {str(self.path)!r} "
+                                 f"(temporary file {str(self.tmp)!r} does not exist)")
+            try:
+                self._file = h5py.File(self.tmp, "r+")
+            except OSError as exc:
+                raise InputError(f"--resume: temporary file {str(self.tmp)!r} is not "
+                                 f"readable ({exc}); delete it and start again") from None
+            self._events = self._file["events"]
+            return
+        if self.tmp.exists() and not self.force:
+            raise OutputExistsError(
+                f"a partial run exists ({str(self.tmp)!r}, left by a killed run): continue it "
+                "with --resume, or use --force to discard it")
         self._file = h5py.File(self.tmp, "w")
         self._events = self._file.create_group("events")
-        self.n_written = 0
+        kwargs = compression_kwargs(compression, self.level)
         for f in self.fields:
             ds = self._events.create_dataset(
                 f.name, shape=(0, *f.shape), maxshape=(None, *f.shape), dtype=f.dtype,
-                chunks=(max(1, min(chunk_rows, 1 << 20)), *f.shape), fletcher32=True,
-                **self._filters,
-            )
+                chunks=(self.rows, *f.shape), fletcher32=True, **kwargs)
             ds.attrs["units"] = f.units
             ds.attrs["description"] = f.description
-        self._events.attrs["compression"] = compression
+        for k, v in self.spec.attrs().items():
+            self._events.attrs[k] = v
+        self._file.attrs[PROGRESS_ATTR] = 0
+        self._file.flush()
 
+    # ------------------------------------------------------------------ resume support
+    @property
+    def progress(self) -> int:
+        """Leading events known complete in the (temporary) file."""
+        return int(self._file.attrs.get(PROGRESS_ATTR, 0))
+
+    def resume_from(self, row: int) -> None:
+        """Continue writing at event ``row`` (≤ :attr:`progress`), dropping later events.
+
+        Rows of a partly filled HDF5 chunk before ``row`` are read back into the buffer, so
+        the chunks written afterwards are the same as in an uninterrupted run.
+        """
+        if not 0 <= row <= self.progress:
+            raise SunrecoilError(f"cannot resume at event {row}: only {self.progress} complete")
+        base = row - row % self.rows
+        for f in self.fields:
+            ds = self._events[f.name]
+            if base < row:
+                self._pending[f.name] = [ds[base:row]]
+            ds.resize(base, axis=0)
+        self._row0 = base
+        self._n_pending = row - base
+        self.n_written = row
+        self._file.attrs[PROGRESS_ATTR] = base
+        self._file.flush()
+
+    # ------------------------------------------------------------------ writing events
     def write_chunk(self, chunk: Mapping[str, np.ndarray]) -> None:
         """Append one chunk (all fields, equal lengths) to the event datasets."""
         n = len(chunk[self.fields[0].name])
         for f in self.fields:
-            data = chunk[f.name]
-            if len(data) != n:
-                raise SunrecoilError(f"field {f.name} has {len(data)} rows, expected {n}")
-            ds = self._events[f.name]
-            ds.resize(self.n_written + n, axis=0)
-            ds[self.n_written:self.n_written + n] = data
+            data = np.ascontiguousarray(chunk[f.name], dtype=f.dtype)
+            if len(data) != n or data.shape[1:] != f.shape:
+                raise SunrecoilError(f"field {f.name} has shape {data.shape}, expected "
+                                     f"({n}, {', '.join(map(str, f.shape))})")
+            self._pending[f.name].append(data)
+        self._n_pending += n
         self.n_written += n
+        while self._n_pending >= self.rows:
+            self._submit(self.rows)
+        self._batch += 1
+        self._drain(keep_batch=self._batch - 1)   # this call's chunks stay in flight
 
+    def _submit(self, valid: int) -> None:
+        """Cut ``valid`` rows off the pending buffer into one HDF5 chunk per field."""
+        for f in self.fields:
+            parts = self._pending[f.name]
+            data = parts[0] if len(parts) == 1 else np.concatenate(parts)
+            head, rest = data[:valid], data[valid:]
+            self._pending[f.name] = [rest] if len(rest) else []
+            if self._pool is not None:
+                if valid < self.rows:          # edge chunk: HDF5 stores full chunks
+                    pad = np.zeros((self.rows, *f.shape), f.dtype)
+                    pad[:valid] = head
+                    head = pad
+                job: Future | np.ndarray = self._pool.submit(encode_deflate, head, self.level)
+            else:
+                job = head
+            self._jobs.append((self._batch, f.name, self._row0, valid, job))
+        self._row0 += valid
+        self._n_pending -= valid
+
+    def _drain(self, keep_batch: int | None = None) -> None:
+        """Write finished chunks in order, leaving batch ``keep_batch`` in flight."""
+        done_to = None
+        while self._jobs and (keep_batch is None or self._jobs[0][0] < keep_batch):
+            _, name, row, valid, job = self._jobs.popleft()
+            ds = self._events[name]
+            if ds.shape[0] < row + valid:
+                ds.resize(row + valid, axis=0)
+            if isinstance(job, Future):
+                ds.id.write_direct_chunk((row,) + (0,) * (ds.ndim - 1), job.result())
+            else:
+                ds[row:row + valid] = job
+            done_to = row + valid
+        if done_to is not None and (not self._jobs or self._jobs[0][2] >= done_to):
+            self._file.attrs[PROGRESS_ATTR] = done_to
+            self._file.flush()
+
+    def write_raw(self, name: str, row: int, raw: bytes, valid: int, filter_mask: int = 0
+                  ) -> None:
+        """Store one already-encoded HDF5 chunk of field ``name`` at event ``row`` (merge)."""
+        ds = self._events[name]
+        if ds.shape[0] < row + valid:
+            ds.resize(row + valid, axis=0)
+        ds.id.write_direct_chunk((row,) + (0,) * (ds.ndim - 1), raw, filter_mask)
+        self.n_written = max(self.n_written, row + valid)
+
+    def flush_events(self) -> None:
+        """Encode and write every buffered event (the last chunk may be partial)."""
+        if self._n_pending:
+            self._submit(self._n_pending)
+        self._drain()
+
+    # ------------------------------------------------------------------ the rest
     def write_table(self, path: str, data: np.ndarray, units: str, description: str,
                     attrs: Mapping[str, Any] | None = None) -> None:
         """Store an auxiliary array (e.g. a probability table) at ``path`` with its unit."""
+        if path in self._file:          # resumed runs write their tables again
+            del self._file[path]
         data = np.asarray(data)
         if data.dtype == object:              # text: variable-length UTF-8 (HDF5 cannot
             data = np.array([str(x) for x in data.ravel()], dtype=_UTF8).reshape(data.shape)
@@ -143,25 +281,62 @@ class HDF5Sink:
         for k, v in attrs.items():
             g.attrs[k] = _attr_value(v)
 
+    def get_attrs(self) -> dict[str, Any]:
+        """Root attributes of the file being written (e.g. of a resumed temporary file)."""
+        return dict(self._file.attrs)
+
     def set_field_attrs(self, name: str, attrs: Mapping[str, Any]) -> None:
         """Set extra attributes on one event dataset."""
         for k, v in attrs.items():
             self._events[name].attrs[k] = _attr_value(v)
 
+    def _shutdown(self) -> None:
+        if self._pool is not None:
+            self._pool.shutdown(wait=True, cancel_futures=True)
+            self._pool = None
+
     def commit(self) -> Path:
-        """Close the file and atomically move it onto the final name."""
+        """Write the last events, close the file and atomically move it onto the final name."""
+        try:
+            self.flush_events()
+        finally:
+            self._shutdown()
         self._file.attrs["n_events"] = self.n_written
+        if PROGRESS_ATTR in self._file.attrs:
+            del self._file.attrs[PROGRESS_ATTR]
+        for k, v in self.spec.attrs().items():
+            self._file.attrs[k] = v
         self._file.close()
         check_output_path(self.path, self.force)
         os.replace(self.tmp, self.path)
+        self._lock.release()
         return self.path
 
     def abort(self) -> None:
         """Close and delete the temporary file; the final name is never touched."""
         try:
+            self._shutdown()
             self._file.close()
         finally:
             self.tmp.unlink(missing_ok=True)
+            self._lock.release()
+
+
+def chunk_rows_for(chunk_size: int, target: int = 1 << 16) -> int:
+    """HDF5 chunk length for generator chunks of ``chunk_size`` events.
+
+    The largest divisor of ``chunk_size`` not above ``target`` (so every generator chunk,
+    shard and resume point starts on an HDF5 chunk boundary and shards merge by copying
+    compressed chunks); when ``chunk_size`` has no divisor of at least 1/16 of the target,
+    ``min(chunk_size, target)`` (merging then re-encodes unaligned shards).
+    """
+    if chunk_size <= target:
+        return max(1, chunk_size)
+    d = -(-chunk_size // target)
+    while chunk_size % d:
+        d += 1
+    rows = chunk_size // d
+    return rows if rows >= target // 16 else target
 
 
 def check_output_path(path: Path, force: bool) -> None:

@@ -46,7 +46,7 @@ print(json.dumps({"n": n, "compression": comp, "plan_s": t_plan, "total_s": t_al
 
 def main() -> None:
     sizes = [float(x) for x in sys.argv[1:]] or [1e6, 1e7]
-    comps = os.environ.get("BENCH_COMPRESSION", "blosc-lz4").split(",")
+    comps = os.environ.get("BENCH_COMPRESSION", "deflate").split(",")
     print(f"{'events':>10} {'filter':>10} {'plan s':>8} {'total s':>8} {'events/s':>12} "
           f"{'peak MB':>8} {'B/event':>8}")
     for comp in comps:
