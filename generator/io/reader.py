@@ -37,6 +37,9 @@ class EventFile:
         with EventFile("events.h5") as ev:
             for chunk in ev.iter_chunks(1_000_000, fields=["e_kinetic", "cos_sun"]):
                 ...
+            df = ev.to_pandas(["e_kinetic", "e_dir"])     # columns e_kinetic, e_dir_x/y/z
+            for frame in ev.iter_pandas(1_000_000, ["e_kinetic", "is_night"]):
+                ...
     """
 
     def __init__(self, path: str | Path):
@@ -180,6 +183,35 @@ class EventFile:
         n = self.n_events
         for i in range(0, n, size):
             yield self.read(fields, i, min(n, i + size))
+
+
+    def to_pandas(self, fields: Sequence[str] | None = None, start: int = 0,
+                  stop: int | None = None) -> Any:
+        """Events ``start:stop`` as a pandas DataFrame (needs the ``pandas`` extra).
+
+        Vector fields become ``<name>_x``, ``<name>_y``, ``<name>_z`` columns; the index is
+        the event number in the file.
+        """
+        from .frames import to_dataframe
+
+        self._check_fields(fields)
+        return to_dataframe(self.read(fields, start, stop), index_start=start)
+
+    def iter_pandas(self, size: int = 1 << 20, fields: Sequence[str] | None = None
+                    ) -> Iterator[Any]:
+        """Iterate over the file in DataFrames of ``size`` events (bounded memory)."""
+        from .frames import require_pandas, to_dataframe
+
+        require_pandas()
+        self._check_fields(fields)
+        for i, chunk in enumerate(self.iter_chunks(size, fields)):
+            yield to_dataframe(chunk, index_start=i * size)
+
+    def _check_fields(self, fields: Sequence[str] | None) -> None:
+        unknown = [f for f in (fields or ()) if f not in self.events]
+        if unknown:
+            raise DataFileError(f"{str(self.path)!r}: no field(s) {', '.join(unknown)}; "
+                                f"stored: {', '.join(self.fields)}")
 
 
 def _decode(v: Any) -> Any:
