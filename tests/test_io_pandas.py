@@ -53,5 +53,8 @@ def test_iter_pandas_covers_the_file(event_file: Path):
 
 
 def test_unknown_field_is_a_clear_error(event_file: Path):
-    with EventFile(event_file) as ev, pytest.raises(DataFileError, match="no field"):
-        ev.to_pandas(["e_kinetik"])
+    with EventFile(event_file) as ev:
+        with pytest.raises(DataFileError, match="no event field"):
+            ev.to_pandas(["e_kinetik"])
+        with pytest.raises(DataFileError, match="no event field"):
+            next(ev.iter_pandas(100, ["e_kinetik"]))

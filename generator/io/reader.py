@@ -194,7 +194,6 @@ class EventFile:
         """
         from .frames import to_dataframe
 
-        self._check_fields(fields)
         return to_dataframe(self.read(fields, start, stop), index_start=start)
 
     def iter_pandas(self, size: int = 1 << 20, fields: Sequence[str] | None = None
@@ -203,15 +202,9 @@ class EventFile:
         from .frames import require_pandas, to_dataframe
 
         require_pandas()
-        self._check_fields(fields)
+        self.read(fields, 0, 0)                 # unknown fields fail before the first chunk
         for i, chunk in enumerate(self.iter_chunks(size, fields)):
             yield to_dataframe(chunk, index_start=i * size)
-
-    def _check_fields(self, fields: Sequence[str] | None) -> None:
-        unknown = [f for f in (fields or ()) if f not in self.events]
-        if unknown:
-            raise DataFileError(f"{str(self.path)!r}: no field(s) {', '.join(unknown)}; "
-                                f"stored: {', '.join(self.fields)}")
 
 
 def _decode(v: Any) -> Any:
