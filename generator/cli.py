@@ -15,6 +15,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from . import __version__
+from .commands import merge, production
 from .config import MAX_EVENTS
 from .errors import InputError, SunrecoilError
 
@@ -72,6 +73,8 @@ def build_parser() -> argparse.ArgumentParser:
                         "or exact scientific notation")
     g.add_argument("--force", action="store_true", help="overwrite an existing output file")
     g.add_argument("--quiet", action="store_true", help="no progress bar, warnings only")
+    production.add_generate_options(g)
+    merge.add_parser(sub)
 
     c = sub.add_parser("config", help="configuration tools")
     csub = c.add_subparsers(dest="config_command", required=True, parser_class=_Parser)
@@ -103,7 +106,6 @@ def _cmd_generate(args: argparse.Namespace) -> int:
     from tqdm import tqdm
 
     from .config import load_config
-    from .pipeline import generate
 
     if args.events is not None and not 1 <= args.events <= MAX_EVENTS:
         raise InputError(f"--events: {args.events} is not allowed; give an integer from 1 to "
@@ -135,8 +137,7 @@ def _cmd_generate(args: argparse.Namespace) -> int:
             bar.update(m)
 
     try:
-        summary = generate(cfg, args.output, n_events=args.events, seed=args.seed,
-                           force=args.force, progress=advance, on_start=start)
+        summary = production.run_generate(args, cfg, advance, start)
     finally:
         if bar is not None:
             bar.close()
@@ -186,6 +187,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         if args.command == "generate":
             return _cmd_generate(args)
+        if args.command == "merge":
+            return merge.run(args)
         if args.command == "config":
             return _cmd_config_show(args)
         if args.command == "inspect":

@@ -46,7 +46,7 @@ import numpy as np
 from . import __version__, kinematics, spectra
 from .config import MAX_EVENTS, Config, to_toml
 from .constants import CODATA_EDITION_NOTE, SECONDS_PER_DAY
-from .errors import ConfigError
+from .errors import ConfigError, InputError
 from .exposure import Exposure, load_run_list, parse_utc
 from .geometry import FiducialVolume, make_fiducial
 from .io.preflight import check_target
@@ -54,6 +54,7 @@ from .io.schema import FRAME_CONVENTION, LAYOUT_VERSION, empty_chunk
 from .io.writer import HDF5Sink, MemorySink, chunk_rows_for
 from .media import Medium, get_medium, target_electrons
 from .oscillation import PRESETS, FlavourModel, OscillationParams
+from .production import Shard, resumed_seed, run_chunks, start_output, work_range
 from .recoil import RecoilSampler
 from .xsec import XsecModel
 
@@ -519,7 +520,8 @@ def _write_tables(sink: Any, plan: RunPlan) -> None:
 def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None = None,
              seed: int | None = None, force: bool = False, sink: Any | None = None,
              progress: Callable[[int], None] | None = None,
-             on_start: Callable[[int], None] | None = None) -> RunSummary:
+             on_start: Callable[[int], None] | None = None, shard: Shard | None = None,
+             resume: bool = False) -> RunSummary:
     """Generate events for a configuration and write them to an HDF5 file (or a given sink).
 
     Parameters
@@ -532,39 +534,48 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         Number of events; overrides ``run.events`` and ``run.count_mode``.
     seed : int, optional
         Root seed; overrides ``run.seed``. When neither is given a random seed is drawn from
-        the operating system and recorded in the file.
+        the operating system and recorded in the file (a resumed run takes the seed of its
+        temporary file).
     force : bool
-        Overwrite an existing output file.
+        Overwrite an existing output file (and discard the temporary file of a killed run).
     sink : object, optional
         An event sink (e.g. :class:`~generator.io.writer.MemorySink`).
     progress : callable, optional
         Called with the number of events of each finished chunk.
     on_start : callable, optional
-        Called once with the total event count, after the tables are built.
+        Called once with the event count of this process, after the tables are built.
+    shard : Shard, optional
+        Write only this shard's chunks (:func:`generator.production.work_range`).
+    resume : bool
+        Continue the killed run whose temporary file lies beside ``out``.
 
     Raises
     ------
     InputError
         Before any file is created, for bad configuration or data files.
     """
+    path = Path(out if out is not None else cfg.output.path)
     if seed is None:
         seed = cfg.run.seed
+    if seed is None and resume:
+        seed = resumed_seed(path)
     entropy = int(seed) if seed is not None else secrets.randbits(128)
-    path = Path(out if out is not None else cfg.output.path)
     if sink is None:                          # fail early, before the expensive tables
         known = n_events if n_events is not None else (
             cfg.run.events if cfg.run.count_mode == "fixed" else None)
         check_target(path, force, known, create_folder=out is None)
+    elif resume:
+        raise InputError("resume needs the HDF5 output (no custom sink)")
     plan = build_plan(cfg)
     n_total = _event_count(plan, entropy, n_events)
     if sink is None and n_events is None and cfg.run.count_mode != "fixed":
         check_target(path, force, n_total)
+    work = work_range(n_total, cfg.run.chunk_size, shard)
     if on_start is not None:
-        on_start(n_total)
-    chunk = cfg.run.chunk_size
-    n_chunks = -(-n_total // chunk)
+        on_start(work.n_events)
     weight = plan.expected_total / n_total if n_total else 0.0
     own_sink = sink is None
+    attrs = {**provenance(plan, entropy, n_total), **work.attrs()}
     from .response import ResponseStage, output_fields
 
     stage = ResponseStage(plan.response, lambda t: plan.exposure.sun(t)[0]) \
@@ -572,21 +583,24 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
     if own_sink:
         sink = HDF5Sink(path, output_fields(cfg), compression=cfg.output.compression,
                         compression_level=cfg.output.compression_level,
-                        chunk_rows=chunk_rows_for(chunk), force=force)
+                        chunk_rows=chunk_rows_for(work.chunk), force=force, resume=resume)
+    first = start_output(sink, work, attrs, resume)
     try:
-        for k in range(n_chunks):
-            m = min(chunk, n_total - k * chunk)
-            rng = np.random.default_rng(chunk_seed(entropy, k))
-            ev = generate_chunk(plan, rng, m, weight)
-            sink.write_chunk(stage.process(ev, entropy, k) if stage is not None else ev)
-            if progress is not None:
-                progress(m)
+        if stage is not None and first > work.k0:     # resumed: restore the trigger counts
+            stage.n_generated = min(first * work.chunk, n_total) - work.event_start
+            stage.n_triggered = sink.count_nonzero("triggered")
+
+        def make(k: int, m: int) -> dict[str, np.ndarray]:
+            ev = generate_chunk(plan, np.random.default_rng(chunk_seed(entropy, k)), m, weight)
+            return stage.process(ev, entropy, k) if stage is not None else ev
+
+        run_chunks(sink, work, first, make, progress)
         codes = [sp.code for sp in plan.sources]
         sink.set_field_attrs("origin", {"codes": np.array(codes, np.int16),
                                         "names": np.array([sp.name for sp in plan.sources],
                                                           dtype=object)})
         _write_tables(sink, plan)
-        sink.set_attrs(provenance(plan, entropy, n_total))
+        sink.set_attrs(attrs)
         if stage is not None:
             stage.write_tables(sink)
             sink.set_attrs({**stage.attrs(weight), **_stage_names(True)})
@@ -594,8 +608,8 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
     except BaseException:
         sink.abort()
         raise
-    return RunSummary(result if own_sink else None, n_total, plan.expected_total, entropy,
-                      chunk, n_chunks, plan)
+    return RunSummary(result if own_sink else None, work.n_events, plan.expected_total,
+                      entropy, work.chunk, work.k1 - work.k0, plan)
 
 
 def memory_run(cfg: Config, n_events: int, seed: int) -> tuple[MemorySink, RunSummary]:

@@ -36,10 +36,13 @@ from .lock import RunLock, temp_path_for
 from .schema import Field
 
 __all__ = ["HDF5Sink", "MemorySink", "compression_kwargs", "temp_path_for",
-           "check_output_path", "chunk_rows_for", "PROGRESS_ATTR"]
+           "check_output_path", "chunk_rows_for", "PROGRESS_ATTR",
+           "PROGRESS_CHUNKS_ATTR"]
 
-#: Root attribute of a temporary file: number of leading events known complete on disk.
+#: Root attributes of a temporary file: the leading events known complete on disk, and how
+#: many ``write_chunk`` calls (generator chunks) they hold.
 PROGRESS_ATTR = "progress_events"
+PROGRESS_CHUNKS_ATTR = "progress_chunks"
 
 
 def compression_kwargs(name: str, level: int | None = None) -> dict[str, Any]:
@@ -130,7 +133,8 @@ class HDF5Sink:
         self._pending: dict[str, list[np.ndarray]] = {f.name: [] for f in self.fields}
         self._n_pending = 0
         self._jobs: deque[tuple[int, str, int, int, Future | np.ndarray]] = deque()
-        self._batch = 0
+        self._batch = 0               # write_chunk calls (generator chunks) accepted
+        self._batch_ends: deque[tuple[int, int]] = deque()   # (calls, rows) at call ends
         n_threads = threads or min(4, os.cpu_count() or 1)
         self._pool = ThreadPoolExecutor(n_threads) if self.spec.direct else None
 
@@ -162,22 +166,25 @@ class HDF5Sink:
         for k, v in self.spec.attrs().items():
             self._events.attrs[k] = v
         self._file.attrs[PROGRESS_ATTR] = 0
+        self._file.attrs[PROGRESS_CHUNKS_ATTR] = 0
         self._file.flush()
 
     # ------------------------------------------------------------------ resume support
     @property
-    def progress(self) -> int:
-        """Leading events known complete in the (temporary) file."""
-        return int(self._file.attrs.get(PROGRESS_ATTR, 0))
+    def progress(self) -> tuple[int, int]:
+        """(generator chunks, events) known complete in the (temporary) file."""
+        a = self._file.attrs
+        return int(a.get(PROGRESS_CHUNKS_ATTR, 0)), int(a.get(PROGRESS_ATTR, 0))
 
-    def resume_from(self, row: int) -> None:
-        """Continue writing at event ``row`` (≤ :attr:`progress`), dropping later events.
+    def resume_from(self, chunks: int, row: int) -> None:
+        """Continue after ``chunks`` complete generator chunks (``row`` events); drop the rest.
 
         Rows of a partly filled HDF5 chunk before ``row`` are read back into the buffer, so
         the chunks written afterwards are the same as in an uninterrupted run.
         """
-        if not 0 <= row <= self.progress:
-            raise SunrecoilError(f"cannot resume at event {row}: only {self.progress} complete")
+        if not 0 <= row <= self.progress[1]:
+            raise SunrecoilError(f"cannot resume at event {row}: only {self.progress[1]} "
+                                 "complete")
         base = row - row % self.rows
         for f in self.fields:
             ds = self._events[f.name]
@@ -187,8 +194,15 @@ class HDF5Sink:
         self._row0 = base
         self._n_pending = row - base
         self.n_written = row
-        self._file.attrs[PROGRESS_ATTR] = base
+        self._batch = chunks
         self._file.flush()
+
+    def count_nonzero(self, name: str) -> int:
+        """Non-zero values of a field among the events accepted so far (resume bookkeeping)."""
+        ds = self._events[name]
+        n = sum(int(np.count_nonzero(ds[i:min(i + (1 << 22), self._row0)]))
+                for i in range(0, self._row0, 1 << 22))
+        return n + sum(int(np.count_nonzero(a)) for a in self._pending[name])
 
     # ------------------------------------------------------------------ writing events
     def write_chunk(self, chunk: Mapping[str, np.ndarray]) -> None:
@@ -205,6 +219,7 @@ class HDF5Sink:
         while self._n_pending >= self.rows:
             self._submit(self.rows)
         self._batch += 1
+        self._batch_ends.append((self._batch, self.n_written))
         self._drain(keep_batch=self._batch - 1)   # this call's chunks stay in flight
 
     def _submit(self, valid: int) -> None:
@@ -239,8 +254,12 @@ class HDF5Sink:
             else:
                 ds[row:row + valid] = job
             done_to = row + valid
-        if done_to is not None and (not self._jobs or self._jobs[0][2] >= done_to):
-            self._file.attrs[PROGRESS_ATTR] = done_to
+        durable = None
+        while done_to is not None and self._batch_ends and self._batch_ends[0][1] <= done_to:
+            durable = self._batch_ends.popleft()
+        if durable is not None:      # every row of these generator chunks is on disk
+            self._file.attrs[PROGRESS_CHUNKS_ATTR] = durable[0]
+            self._file.attrs[PROGRESS_ATTR] = durable[1]
             self._file.flush()
 
     def write_raw(self, name: str, row: int, raw: bytes, valid: int, filter_mask: int = 0
@@ -275,6 +294,10 @@ class HDF5Sink:
         for k, v in (attrs or {}).items():
             ds.attrs[k] = _attr_value(v)
 
+    def copy_from(self, src: h5py.File, name: str) -> None:
+        """Copy a group or dataset (with attributes) from another open file (merge)."""
+        src.copy(src[name], self._file, name)
+
     def set_attrs(self, attrs: Mapping[str, Any], group: str = "/") -> None:
         """Set attributes on a group (root by default)."""
         g = self._file.require_group(group) if group != "/" else self._file
@@ -302,8 +325,9 @@ class HDF5Sink:
         finally:
             self._shutdown()
         self._file.attrs["n_events"] = self.n_written
-        if PROGRESS_ATTR in self._file.attrs:
-            del self._file.attrs[PROGRESS_ATTR]
+        for k in (PROGRESS_ATTR, PROGRESS_CHUNKS_ATTR):
+            if k in self._file.attrs:
+                del self._file.attrs[k]
         for k, v in self.spec.attrs().items():
             self._file.attrs[k] = v
         self._file.close()
@@ -311,6 +335,14 @@ class HDF5Sink:
         os.replace(self.tmp, self.path)
         self._lock.release()
         return self.path
+
+    def close_keep(self) -> None:
+        """Close and unlock, keeping the temporary file (a refused ``--resume``)."""
+        try:
+            self._shutdown()
+            self._file.close()
+        finally:
+            self._lock.release()
 
     def abort(self) -> None:
         """Close and delete the temporary file; the final name is never touched."""
@@ -384,6 +416,9 @@ class MemorySink:
         """Mark complete."""
         self.attrs["/"]["n_events"] = self.n_written
         self.committed = True
+
+    def close_keep(self) -> None:
+        """Nothing to keep or release in memory."""
 
     def abort(self) -> None:
         """Drop everything."""

@@ -1,0 +1,112 @@
+"""Distributed production on dask.distributed (optional extra ``dask``).
+
+``generate --workers K`` starts a local cluster of K worker processes (one thread each,
+loopback only); ``generate --scheduler ADDRESS`` uses an existing cluster and runs one shard
+per worker. Either way the run is split into N shards (:mod:`generator.production`), one task
+per shard writes ``.<name>.shards/shard-IIII-of-NNNN.h5`` beside the output, and the parent
+merges them (:mod:`generator.io.merge`) into the output, bit-identical in ``/events`` to a
+single-process run with the same seed. The seed is fixed in the parent (drawn there when none
+is given), so all shards belong to one run. Workers must see the output folder (a shared file
+system on a real cluster). The shard folder is removed after the merge and after a failure.
+"""
+
+from __future__ import annotations
+
+import secrets
+import shutil
+from pathlib import Path
+from typing import Any
+
+from .errors import InputError, SunrecoilError
+
+__all__ = ["generate_distributed", "shard_paths"]
+
+
+def shard_paths(out: Path, n: int) -> list[Path]:
+    """Shard file names of a distributed run writing ``out``."""
+    folder = out.with_name(f".{out.name}.shards")
+    return [folder / f"shard-{i:04d}-of-{n:04d}.h5" for i in range(n)]
+
+
+def _run_shard(cfg: Any, path: str, n_events: int | None, entropy: int, index: int,
+               count: int) -> tuple[int, float, int, int]:
+    """One task: write shard ``index`` of ``count``; (events, expected, chunk size, chunks)."""
+    from .pipeline import generate
+    from .production import Shard
+
+    s = generate(cfg, path, n_events=n_events, seed=entropy, force=True,
+                 shard=Shard(index, count))
+    return s.n_events, s.expected_events, s.chunk_size, s.n_chunks
+
+
+def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any]:
+    try:
+        import logging
+
+        from distributed import Client, LocalCluster
+
+        logging.getLogger("distributed").setLevel(logging.WARNING)
+    except ImportError:
+        raise InputError("--workers/--scheduler need dask.distributed: "
+                         "pip install 'sunrecoil[dask]'") from None
+    if scheduler is not None:
+        try:
+            return Client(scheduler, timeout="20s"), None
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise InputError(f"--scheduler: cannot connect to {scheduler!r} ({exc})") from None
+    cluster = LocalCluster(n_workers=workers, processes=True, threads_per_worker=1,
+                           host="127.0.0.1", dashboard_address=None)
+    return Client(cluster), cluster
+
+
+def generate_distributed(cfg: Any, out: str | Path | None = None, *,
+                         n_events: int | None = None, seed: int | None = None,
+                         force: bool = False, workers: int | None = None,
+                         scheduler: str | None = None, on_start: Any = None) -> Any:
+    """Generate a run as shards on a dask cluster and merge them into ``out``.
+
+    Returns
+    -------
+    generator.pipeline.RunSummary
+        With ``plan`` None (the tables were built on the workers).
+    """
+    from .io.merge import merge_shards
+    from .io.preflight import check_target
+    from .pipeline import RunSummary
+
+    path = Path(out if out is not None else cfg.output.path)
+    known = n_events if n_events is not None else (
+        cfg.run.events if cfg.run.count_mode == "fixed" else None)
+    check_target(path, force, known, create_folder=out is None)
+    seed = seed if seed is not None else cfg.run.seed
+    entropy = int(seed) if seed is not None else secrets.randbits(128)
+    folder = shard_paths(path, 1)[0].parent
+    if folder.exists():
+        if not force:
+            raise InputError(f"{str(folder)!r} exists (shards of an interrupted distributed "
+                             "run); remove it or use --force")
+        shutil.rmtree(folder)
+    client, cluster = _client(workers, scheduler)
+    try:
+        n = workers if workers is not None else max(1, len(client.scheduler_info()["workers"]))
+        paths = shard_paths(path, n)
+        folder.mkdir(parents=True)
+        try:
+            futures = [client.submit(_run_shard, cfg, str(p), n_events, entropy, i, n,
+                                     pure=False) for i, p in enumerate(paths)]
+            try:
+                results = client.gather(futures)
+            except InputError:
+                raise
+            except Exception as exc:
+                raise SunrecoilError(f"a shard task failed: {exc}") from exc
+            merged = merge_shards(path, paths, force=force)
+        finally:
+            shutil.rmtree(folder, ignore_errors=True)
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+    n_total = sum(r[0] for r in results)
+    return RunSummary(merged, n_total, results[0][1], entropy, results[0][2],
+                      sum(r[3] for r in results), None)
