@@ -130,42 +130,6 @@ def test_help_everywhere(tmp_path: Path, args: tuple[str, ...]):
     assert "usage:" in r.stdout
 
 
-def test_sigkill_mid_write_leaves_no_final_file(tmp_path: Path):
-    """A run killed with SIGKILL while writing leaves nothing under the final name.
-
-    What stays is the temporary file ``.big.h5.tmp`` (for ``--resume``) and its lock file,
-    whose lock the operating system released with the process.
-    """
-    (tmp_path / "c.toml").write_text("[run]\nchunk_size = 20000\n")
-    out = tmp_path / "big.h5"
-    err = tmp_path / "stderr.txt"
-    with open(err, "wb") as err_file:
-        proc = subprocess.Popen([sys.executable, "-m", "generator", "generate", "c.toml", "-o",
-                                 str(out), "--events", "50000000", "--seed", "3", "--quiet"],
-                                cwd=tmp_path, stdout=subprocess.DEVNULL, stderr=err_file)
-    try:
-        import time
-
-        deadline = time.monotonic() + 300
-        while time.monotonic() < deadline:
-            tmps = list(tmp_path.glob(".big.h5.tmp"))
-            if tmps and tmps[0].stat().st_size > 200_000:
-                break
-            if proc.poll() is not None:
-                pytest.fail(f"generator ended early: {err.read_text()}")
-            time.sleep(0.05)
-        else:
-            pytest.fail("temporary file never grew")
-        proc.kill()
-        proc.wait(30)
-    finally:
-        if proc.poll() is None:
-            proc.kill()
-    assert proc.returncode == -9
-    assert not out.exists()
-    assert (tmp_path / ".big.h5.tmp").exists()
-
-
 @pytest.mark.parametrize(("table", "problem"), [
     ("1.0 0.5\n0.5 0.7\n2.0 0.1\n", "increasing"),
     ("0.5 0.5\n1.0 -0.7\n2.0 0.1\n", "negative"),

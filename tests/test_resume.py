@@ -1,5 +1,8 @@
 """``generate --resume``: a run killed with SIGKILL continues to a bit-identical file.
 
+Each kill also checks the writer's failure semantics: nothing under the final name, the
+temporary file ``.NAME.tmp`` kept for ``--resume``.
+
 Identity tests of the production machinery (no physics values): the reference is the same
 command run without interruption.
 """

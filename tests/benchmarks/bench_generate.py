@@ -5,7 +5,9 @@ Usage::
     python tests/benchmarks/bench_generate.py [N ...]      # default: 1e6 1e7
 
 Each size runs in a fresh subprocess (so peak RSS is that run's own), with the embedded default
-configuration, the default compression, a fixed seed and output into a temporary directory. The
+configuration (or the TOML file named by ``BENCH_CONFIG``, e.g. ``[response] enabled = false``
+for the truth-level stages alone), the default compression (``BENCH_COMPRESSION`` lists
+others), a fixed seed and output into a temporary directory. The
 plan-building time (tables; the night table comes from the disk cache after the first run) is
 reported apart from the event loop, whose rate (generation + compression + writing) is the
 events/s column.
@@ -24,7 +26,7 @@ import json, resource, sys, time, tempfile, os
 from generator.config import load_config
 from generator.pipeline import generate
 n = int(float(sys.argv[1])); comp = sys.argv[2]
-cfg = load_config(None)
+cfg = load_config(os.environ.get("BENCH_CONFIG") or None)
 import dataclasses
 cfg = dataclasses.replace(cfg, output=dataclasses.replace(cfg.output, compression=comp))
 d = tempfile.mkdtemp()

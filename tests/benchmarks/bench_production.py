@@ -2,9 +2,10 @@
 
 Usage::
 
-    python tests/benchmarks/bench_production.py [N] [WORKERS]      # default: 1e7 2
+    python tests/benchmarks/bench_production.py [N] [WORKERS] [CONFIG]   # default: 1e7 2
 
-Runs, with the embedded default configuration and a fixed seed, in one temporary folder:
+Runs, with the embedded default configuration (or CONFIG, e.g. a file with
+``[response] enabled = false`` for truth-level speed) and a fixed seed, in one temporary folder:
 
 1. ``generate`` in one process (wall time including the tables);
 2. ``generate --workers WORKERS`` through :func:`generator.distributed.generate_distributed`
@@ -41,7 +42,7 @@ def main() -> None:
     from generator.pipeline import generate
     from generator.production import Shard
 
-    cfg = load_config(None)
+    cfg = load_config(sys.argv[3] if len(sys.argv) > 3 else None)
     d = Path(tempfile.mkdtemp(prefix="bench-prod-"))
     try:
         t = time.perf_counter()
