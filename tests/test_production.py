@@ -197,3 +197,33 @@ def test_two_worker_local_cluster_matches_single_process(small_config, run_files
     assert summary.n_events == N
     assert_same_events(out, single)
     assert list(tmp_path.iterdir()) == [out]
+
+
+class _Stop(BaseException):
+    """Stands in for a kill in the middle of a run."""
+
+
+def test_resume_in_process_restores_response_counters(small_config, run_files, tmp_path: Path,
+                                                       monkeypatch: pytest.MonkeyPatch):
+    """A run stopped after two chunks (temporary file kept, as after SIGKILL) resumes to the
+    same events and the same trigger bookkeeping as the uninterrupted run."""
+    single, _, _ = run_files
+    out = tmp_path / "ev.h5"
+    done = []
+
+    def stop_after_two(m: int) -> None:
+        done.append(m)
+        if len(done) == 2:
+            raise _Stop
+
+    with monkeypatch.context() as mp:
+        mp.setattr(HDF5Sink, "abort", HDF5Sink.close_keep)
+        with pytest.raises(_Stop):
+            generate(small_config, out, n_events=N, seed=SEED, progress=stop_after_two)
+    assert (tmp_path / ".ev.h5.tmp").exists() and not out.exists()
+    summary = generate(small_config, out, n_events=N, seed=SEED, resume=True)
+    assert summary.path == out
+    assert_same_events(out, single)
+    with h5py.File(out, "r") as f, h5py.File(single, "r") as g:
+        for k in ("n_generated", "n_triggered", "trigger_efficiency", "n_events"):
+            assert f.attrs[k] == g.attrs[k], k

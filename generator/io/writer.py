@@ -148,7 +148,15 @@ class HDF5Sink:
             except OSError as exc:
                 raise InputError(f"--resume: temporary file {str(self.tmp)!r} is not "
                                  f"readable ({exc}); delete it and start again") from None
-            self._events = self._file["events"]
+            try:
+                self._events = self._file["events"]
+                first = self._events[self.fields[0].name]
+                self.rows = int(first.chunks[0])   # the file's own chunking decides
+            except (KeyError, TypeError):
+                self._file.close()
+                raise InputError(f"--resume: temporary file {str(self.tmp)!r} is incomplete "
+                                 "(killed while being created); use --force to start "
+                                 "again") from None
             return
         if self.tmp.exists() and not self.force:
             raise OutputExistsError(
