@@ -227,3 +227,19 @@ def test_resume_in_process_restores_response_counters(small_config, run_files, t
     with h5py.File(out, "r") as f, h5py.File(single, "r") as g:
         for k in ("n_generated", "n_triggered", "trigger_efficiency", "n_events"):
             assert f.attrs[k] == g.attrs[k], k
+
+
+def test_merge_command_exit_codes(run_files, tmp_path: Path, capsys: pytest.CaptureFixture):
+    from generator.cli import main
+
+    _, shards, other = run_files
+    out = tmp_path / "m.h5"
+    assert main(["merge", str(out), str(shards[0]), str(shards[2])]) == 2
+    assert "1/3 missing" in capsys.readouterr().err
+    assert main(["merge", str(out), str(other), str(shards[1]), str(shards[2])]) == 2
+    assert main(["merge", str(out), *map(str, shards), str(shards[0])]) == 2
+    assert list(tmp_path.iterdir()) == []
+    assert main(["merge", str(out), *map(str, shards), "--quiet"]) == 0
+    assert main(["merge", str(out), *map(str, shards)]) == 2          # exists, no --force
+    assert main(["merge", str(out), *map(str, shards), "--force", "--quiet"]) == 0
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["m.h5"]
