@@ -15,7 +15,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from . import __version__
-from .commands import merge, production
+from .commands import production
 from .config import MAX_EVENTS
 from .errors import InputError, SunrecoilError
 
@@ -25,7 +25,7 @@ log = logging.getLogger("generator")
 
 #: Commands implemented in ``generator/commands/<name>.py``; each module provides
 #: ``add_parser(subparsers)`` (which sets ``run=<function(args) -> int>`` as a default).
-COMMAND_MODULES: tuple[str, ...] = ("check",)
+COMMAND_MODULES: tuple[str, ...] = ("check", "merge")
 
 
 class _Parser(argparse.ArgumentParser):
@@ -74,7 +74,6 @@ def build_parser() -> argparse.ArgumentParser:
     g.add_argument("--force", action="store_true", help="overwrite an existing output file")
     g.add_argument("--quiet", action="store_true", help="no progress bar, warnings only")
     production.add_generate_options(g)
-    merge.add_parser(sub)
 
     c = sub.add_parser("config", help="configuration tools")
     csub = c.add_subparsers(dest="config_command", required=True, parser_class=_Parser)
@@ -187,8 +186,6 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         if args.command == "generate":
             return _cmd_generate(args)
-        if args.command == "merge":
-            return merge.run(args)
         if args.command == "config":
             return _cmd_config_show(args)
         if args.command == "inspect":

@@ -19,6 +19,7 @@ def add_parser(sub: argparse._SubParsersAction) -> argparse.ArgumentParser:
     m.add_argument("shards", nargs="+", help="shard files (each of 0/N … N-1/N exactly once)")
     m.add_argument("--force", action="store_true", help="overwrite an existing output file")
     m.add_argument("--quiet", action="store_true", help="no summary line")
+    m.set_defaults(run=run)
     return m
 
 
