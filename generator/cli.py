@@ -59,6 +59,8 @@ def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="sunrecoil",
                 description="Monte Carlo events of solar-neutrino elastic scattering on electrons.")
     p.add_argument("--version", action="version", version=f"sunrecoil {__version__}")
+    p.add_argument("--debug", action="store_true",
+                   help="show Python tracebacks of failures (also SUNRECOIL_DEBUG=1)")
     sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
     g = sub.add_parser("generate", help="generate an event file",
@@ -179,10 +181,19 @@ def _cmd_inspect(args: argparse.Namespace) -> int:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Entry point of the ``sunrecoil`` command; returns the exit status."""
+    """Entry point of the ``sunrecoil`` command; returns the exit status.
+
+    Exit status: 0 success; 1 the run failed (one line on stderr, partial output removed);
+    2 bad input or usage (nothing written); 130 / 143 interrupted by SIGINT / SIGTERM (partial
+    output removed). ``--debug`` or ``SUNRECOIL_DEBUG=1`` adds the Python traceback.
+    """
+    from .io import signals
+
     args = build_parser().parse_args(argv)
+    debug = bool(getattr(args, "debug", False) or os.environ.get("SUNRECOIL_DEBUG"))
     logging.basicConfig(level=logging.WARNING if getattr(args, "quiet", False) else logging.INFO,
                         format="%(levelname)s %(name)s: %(message)s", stream=sys.stderr)
+    signals.install()
     try:
         if args.command == "generate":
             return _cmd_generate(args)
@@ -192,14 +203,30 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _cmd_inspect(args)
         return int(args.run(args))
     except InputError as exc:
-        print(f"sunrecoil: error: {exc}", file=sys.stderr)
-        return 2
+        return _fail(f"sunrecoil: error: {exc}", 2, debug)
     except SunrecoilError as exc:
-        print(f"sunrecoil: run failed: {exc}", file=sys.stderr)
-        return 1
-    except KeyboardInterrupt:
-        print("sunrecoil: interrupted; no output file was written", file=sys.stderr)
-        return 1
+        return _fail(f"sunrecoil: run failed: {exc}", 1, debug)
+    except (signals.Interrupted, KeyboardInterrupt) as exc:
+        status = getattr(exc, "exit_status", 130)
+        return _fail(f"sunrecoil: {exc or 'interrupted'}; partial output was removed", status,
+                     debug)
+    except OSError as exc:
+        where = f" ({exc.filename})" if getattr(exc, "filename", None) else ""
+        return _fail(f"sunrecoil: run failed: {exc.strerror or exc}{where}", 1, debug)
+    finally:
+        # from here on a signal ends the process at once (it cannot be swallowed by
+        # finalisers at interpreter exit and turn into exit status 0)
+        signals.restore()
+
+
+def _fail(message: str, status: int, debug: bool) -> int:
+    """Print one line (plus the traceback with --debug) and return the exit status."""
+    if debug:
+        import traceback
+
+        traceback.print_exc(file=sys.stderr)
+    print(" ".join(message.split()), file=sys.stderr)
+    return status
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -7,7 +7,8 @@ callers can catch them; the CLI maps :class:`InputError` to exit status 2.
 
 from __future__ import annotations
 
-__all__ = ["SunrecoilError", "InputError", "ConfigError", "DataFileError", "OutputExistsError"]
+__all__ = ["SunrecoilError", "InputError", "ConfigError", "DataFileError", "OutputExistsError",
+           "WriteError"]
 
 
 class SunrecoilError(Exception):
@@ -28,3 +29,7 @@ class DataFileError(InputError):
 
 class OutputExistsError(InputError):
     """The output file exists and overwriting was not requested."""
+
+
+class WriteError(SunrecoilError):
+    """Writing the output failed (disk full, I/O error, read-only file system). Exit status 1."""

@@ -116,3 +116,62 @@ def test_too_small_disk_is_refused_up_front(tmp_path):
         _one_line(r.stderr)
         assert "MB free" in r.stderr
         assert not any(folder.iterdir())
+
+
+def test_enospc_while_writing_via_the_test_hook(tmp_path):
+    """ENOSPC injected into HDF5's own writes (descriptor pointed at /dev/full)."""
+    r = run_cli("generate", "-o", "a.h5", "--events", "300000", "--seed", "1", "--quiet",
+                cwd=tmp_path, env_extra={"SUNRECOIL_TEST_ENOSPC_AFTER_CHUNKS": "1",
+                                         "SUNRECOIL_CACHE": os.environ["SUNRECOIL_CACHE"]})
+    assert r.returncode == 1, r.stderr
+    _one_line(r.stderr)
+    assert "No space left on device" in r.stderr and "a.h5" in r.stderr
+    assert not (tmp_path / "a.h5").exists()
+    _no_temp_files(tmp_path)
+
+
+def test_full_tmpfs_while_writing(tmp_path):
+    """A real 3 MB file system: the estimate lets 10⁵ events start, the disk fills up."""
+    with _mount_tmpfs(tmp_path / "full", "size=3m") as folder:
+        r = run_cli("generate", "-o", str(folder / "a.h5"), "--events", "100000", "--seed",
+                    "1", "--quiet", cwd=tmp_path)
+        assert r.returncode == 1, r.stderr
+        _one_line(r.stderr)
+        assert "No space left on device" in r.stderr
+        assert not any(folder.iterdir())
+
+
+def test_debug_switch_shows_the_traceback(tmp_path):
+    r = run_cli("--debug", "generate", "-o", "a.h5", "--events", "300000", "--seed", "1",
+                "--quiet", cwd=tmp_path, env_extra={"SUNRECOIL_TEST_ENOSPC_AFTER_CHUNKS": "1"})
+    assert r.returncode == 1
+    assert "Traceback" in r.stderr
+
+
+@pytest.mark.parametrize("sig,status", [(2, 130), (15, 143)])
+def test_interrupts_clean_up_and_are_never_lost(tmp_path, sig, status):
+    """SIGINT/SIGTERM at several moments (tables, events, late in the write): the run ends
+    with 130/143 (or, after the handlers are restored at exit, by the signal itself) and leaves
+    no temporary file; a signal delivered to a live process never ends in exit status 0."""
+    import signal as _signal
+    import time
+
+    env = dict(os.environ)
+    env["PYTHONPATH"] = str(ROOT) + os.pathsep + env.get("PYTHONPATH", "")
+    for delay in (0.5, 2.0, 4.0, 7.0):
+        out = tmp_path / f"a{delay}.h5"
+        proc = subprocess.Popen([sys.executable, "-m", "generator", "generate", "-o", str(out),
+                                 "--events", "1500000", "--seed", "1", "--quiet"],
+                                cwd=tmp_path, env=env, stdout=subprocess.DEVNULL,
+                                stderr=subprocess.PIPE, text=True)
+        time.sleep(delay)
+        if proc.poll() is not None:
+            assert proc.returncode == 0
+            continue
+        proc.send_signal(_signal.Signals(sig))
+        _, err = proc.communicate(timeout=300)
+        assert proc.returncode in (status, -sig), (delay, proc.returncode, err)
+        if proc.returncode == status:
+            _one_line(err)
+        _no_temp_files(tmp_path)
+        assert not out.exists() or proc.returncode == -sig

@@ -23,7 +23,7 @@ from pathlib import Path
 from ..errors import InputError, OutputExistsError
 from ..userfiles import clip
 
-__all__ = ["check_target", "estimate_bytes", "BYTES_PER_EVENT", "SPACE_MARGIN"]
+__all__ = ["check_target", "check_existing", "estimate_bytes", "BYTES_PER_EVENT", "SPACE_MARGIN"]
 
 #: Measured compressed size of one truth-level event with the default filter (bytes; the
 #: benchmark tests/benchmarks/bench_generate.py prints it). Used for the free-space check only.
@@ -52,6 +52,38 @@ def _describe(mode: int) -> str:
     return "not a regular file"
 
 
+def check_existing(p: Path, force: bool) -> None:
+    """Refuse an existing target unless it is a regular file (or a link to one) and ``force``.
+
+    Raises
+    ------
+    OutputExistsError
+        Naming the path and what it is.
+    """
+    shown = clip(str(p))
+    try:
+        lst = os.lstat(p)
+    except FileNotFoundError:
+        lst = None
+    except OSError as exc:
+        raise InputError(f"output path {shown}: cannot be examined ({exc.strerror})") from None
+    if lst is not None:
+        if stat.S_ISLNK(lst.st_mode):
+            try:
+                mode = os.stat(p).st_mode
+            except OSError:
+                raise OutputExistsError(f"output path {shown} is a dangling symbolic link; "
+                                        "remove it or choose another path") from None
+        else:
+            mode = lst.st_mode
+        if not stat.S_ISREG(mode):
+            raise OutputExistsError(f"output path {shown} is {_describe(mode)}; only a regular "
+                                    "file is ever replaced (with --force)")
+        if not force:
+            raise OutputExistsError(f"output file {shown} exists; use --force (or choose "
+                                    "another path) to overwrite")
+
+
 def check_target(path: str | os.PathLike[str], force: bool, n_events: int | None = None,
                  bytes_per_event: float = BYTES_PER_EVENT, create_folder: bool = False) -> None:
     """Refuse an output target that cannot or must not be written.
@@ -78,28 +110,7 @@ def check_target(path: str | os.PathLike[str], force: bool, n_events: int | None
         The folder is missing, not a folder or not writable, or the disk is clearly too small.
     """
     p = Path(path)
-    shown = clip(str(p))
-    try:
-        lst = os.lstat(p)
-    except FileNotFoundError:
-        lst = None
-    except OSError as exc:
-        raise InputError(f"output path {shown}: cannot be examined ({exc.strerror})") from None
-    if lst is not None:
-        if stat.S_ISLNK(lst.st_mode):
-            try:
-                mode = os.stat(p).st_mode
-            except OSError:
-                raise OutputExistsError(f"output path {shown} is a dangling symbolic link; "
-                                        "remove it or choose another path") from None
-        else:
-            mode = lst.st_mode
-        if not stat.S_ISREG(mode):
-            raise OutputExistsError(f"output path {shown} is {_describe(mode)}; only a regular "
-                                    "file is ever replaced (with --force)")
-        if not force:
-            raise OutputExistsError(f"output file {shown} exists; use --force (or choose "
-                                    "another path) to overwrite")
+    check_existing(p, force)
     folder = p.parent if str(p.parent) else Path(".")
     if not folder.exists() and create_folder:
         try:

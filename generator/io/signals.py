@@ -19,7 +19,7 @@ import signal
 import threading
 from collections.abc import Iterator
 
-__all__ = ["Interrupted", "install", "critical", "EXIT_STATUS"]
+__all__ = ["Interrupted", "install", "restore", "critical", "EXIT_STATUS"]
 
 #: Exit status per signal (128 + signal number, the shell convention).
 EXIT_STATUS = {signal.SIGINT: 130, signal.SIGTERM: 143}
@@ -59,6 +59,14 @@ def install() -> None:
         return
     for sig in (signal.SIGINT, signal.SIGTERM):
         signal.signal(sig, _handler)
+
+
+def restore() -> None:
+    """Put the default handlers back (a signal after this ends the process at once)."""
+    if threading.current_thread() is not threading.main_thread():
+        return
+    for sig in (signal.SIGINT, signal.SIGTERM):
+        signal.signal(sig, signal.SIG_DFL)
 
 
 @contextlib.contextmanager

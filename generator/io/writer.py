@@ -20,7 +20,12 @@ direct chunk writes; other filters go through h5py's own filter pipeline. After 
 
 from __future__ import annotations
 
+import contextlib
+import errno as _errno
+import functools
 import os
+import re
+import tempfile
 from collections import deque
 from collections.abc import Mapping, Sequence
 from concurrent.futures import Future, ThreadPoolExecutor
@@ -30,10 +35,49 @@ from typing import Any
 import h5py
 import numpy as np
 
-from ..errors import InputError, OutputExistsError, SunrecoilError
+from ..errors import InputError, OutputExistsError, SunrecoilError, WriteError
 from .filters import DEFAULT_FILTER, encode_deflate, filter_spec
 from .lock import RunLock, temp_path_for
+from .preflight import check_existing
 from .schema import Field
+from .signals import critical
+
+#: Test hook (environment variable): after this many generator chunks the HDF5 file
+#: descriptor is pointed at /dev/full, so every later write fails with a real ENOSPC from HDF5.
+FAULT_HOOK_ENV = "SUNRECOIL_TEST_ENOSPC_AFTER_CHUNKS"
+
+
+def _error_number(exc: BaseException) -> int | None:
+    if isinstance(exc, OSError) and exc.errno:
+        return exc.errno
+    m = re.search(r"errno = (\d+)", str(exc))
+    return int(m.group(1)) if m else None
+
+
+def _guarded(method):
+    """Run a writer method with interrupts deferred; turn I/O failures into WriteError.
+
+    After the first failure the sink is *broken*: its HDF5 file descriptor is redirected to an
+    anonymous scratch file, so that closing the file (which flushes metadata) cannot fail
+    again or crash in h5py's finalisers, and :meth:`HDF5Sink.abort` removes the temporary
+    file.
+    """
+    @functools.wraps(method)
+    def wrapper(self, *args, **kwargs):
+        if self._broken is not None:
+            raise self._broken
+        try:
+            with critical():
+                return method(self, *args, **kwargs)
+        except (OSError, RuntimeError) as exc:
+            code = _error_number(exc)
+            cause = (f"{os.strerror(code)} [{_errno.errorcode.get(code, code)}]"
+                     if code else str(exc).splitlines()[0][:120])
+            self._broken = WriteError(f"writing {str(self.tmp)!r} (for {str(self.path)!r}) "
+                                      f"failed: {cause}")
+            self._detach()
+            raise self._broken from None
+    return wrapper
 
 __all__ = ["HDF5Sink", "MemorySink", "compression_kwargs", "temp_path_for",
            "check_output_path", "chunk_rows_for", "PROGRESS_ATTR",
@@ -115,6 +159,8 @@ class HDF5Sink:
                  resume: bool = False):
         self.path = Path(path)
         self.force = force
+        self._broken: WriteError | None = None
+        self._scratch: Any = None
         check_output_path(self.path, force)
         self.fields = tuple(fields)
         self.tmp = temp_path_for(self.path)
@@ -213,6 +259,7 @@ class HDF5Sink:
         return n + sum(int(np.count_nonzero(a)) for a in self._pending[name])
 
     # ------------------------------------------------------------------ writing events
+    @_guarded
     def write_chunk(self, chunk: Mapping[str, np.ndarray]) -> None:
         """Append one chunk (all fields, equal lengths) to the event datasets."""
         n = len(chunk[self.fields[0].name])
@@ -228,6 +275,10 @@ class HDF5Sink:
             self._submit(self.rows)
         self._batch += 1
         self._batch_ends.append((self._batch, self.n_written))
+        if os.environ.get(FAULT_HOOK_ENV, "") == str(self._batch):
+            full = os.open("/dev/full", os.O_WRONLY)
+            os.dup2(full, self._file.id.get_vfd_handle())
+            os.close(full)
         self._drain(keep_batch=self._batch - 1)   # this call's chunks stay in flight
 
     def _submit(self, valid: int) -> None:
@@ -270,6 +321,7 @@ class HDF5Sink:
             self._file.attrs[PROGRESS_ATTR] = durable[1]
             self._file.flush()
 
+    @_guarded
     def write_raw(self, name: str, row: int, raw: bytes, valid: int, filter_mask: int = 0
                   ) -> None:
         """Store one already-encoded HDF5 chunk of field ``name`` at event ``row`` (merge)."""
@@ -279,6 +331,7 @@ class HDF5Sink:
         ds.id.write_direct_chunk((row,) + (0,) * (ds.ndim - 1), raw, filter_mask)
         self.n_written = max(self.n_written, row + valid)
 
+    @_guarded
     def flush_events(self) -> None:
         """Encode and write every buffered event (the last chunk may be partial)."""
         if self._n_pending:
@@ -286,6 +339,7 @@ class HDF5Sink:
         self._drain()
 
     # ------------------------------------------------------------------ the rest
+    @_guarded
     def write_table(self, path: str, data: np.ndarray, units: str, description: str,
                     attrs: Mapping[str, Any] | None = None) -> None:
         """Store an auxiliary array (e.g. a probability table) at ``path`` with its unit."""
@@ -302,10 +356,12 @@ class HDF5Sink:
         for k, v in (attrs or {}).items():
             ds.attrs[k] = _attr_value(v)
 
+    @_guarded
     def copy_from(self, src: h5py.File, name: str) -> None:
         """Copy a group or dataset (with attributes) from another open file (merge)."""
         src.copy(src[name], self._file, name)
 
+    @_guarded
     def set_attrs(self, attrs: Mapping[str, Any], group: str = "/") -> None:
         """Set attributes on a group (root by default)."""
         g = self._file.require_group(group) if group != "/" else self._file
@@ -316,6 +372,7 @@ class HDF5Sink:
         """Root attributes of the file being written (e.g. of a resumed temporary file)."""
         return dict(self._file.attrs)
 
+    @_guarded
     def set_field_attrs(self, name: str, attrs: Mapping[str, Any]) -> None:
         """Set extra attributes on one event dataset."""
         for k, v in attrs.items():
@@ -326,6 +383,7 @@ class HDF5Sink:
             self._pool.shutdown(wait=True, cancel_futures=True)
             self._pool = None
 
+    @_guarded
     def commit(self) -> Path:
         """Write the last events, close the file and atomically move it onto the final name."""
         try:
@@ -344,19 +402,42 @@ class HDF5Sink:
         self._lock.release()
         return self.path
 
+    def _detach(self) -> None:
+        """Point the HDF5 file descriptor at an anonymous scratch file (after a failure)."""
+        with contextlib.suppress(Exception):
+            self._scratch = tempfile.TemporaryFile()
+            os.dup2(self._scratch.fileno(), self._file.id.get_vfd_handle())
+
+    def _close_quietly(self) -> None:
+        with critical():
+            self._shutdown()
+            if self._broken is not None:
+                with contextlib.suppress(Exception):
+                    self._file.close()
+            else:
+                self._file.close()
+        if self._scratch is not None:
+            self._scratch.close()
+
     def close_keep(self) -> None:
         """Close and unlock, keeping the temporary file (a refused ``--resume``)."""
         try:
-            self._shutdown()
-            self._file.close()
+            self._close_quietly()
         finally:
             self._lock.release()
 
     def abort(self) -> None:
         """Close and delete the temporary file; the final name is never touched."""
         try:
-            self._shutdown()
-            self._file.close()
+            if self._broken is None:
+                try:
+                    self._close_quietly()
+                except (OSError, RuntimeError):   # e.g. the disk filled while closing
+                    self._detach()
+                    self._broken = WriteError("closing failed")
+                    self._close_quietly()
+            else:
+                self._close_quietly()
         finally:
             self.tmp.unlink(missing_ok=True)
             self._lock.release()
@@ -380,13 +461,8 @@ def chunk_rows_for(chunk_size: int, target: int = 1 << 16) -> int:
 
 
 def check_output_path(path: Path, force: bool) -> None:
-    """Refuse to overwrite an existing file unless ``force``; refuse directories always."""
-    if path.is_dir():
-        raise OutputExistsError(f"output path {str(path)!r} is a directory")
-    if path.exists() and not force:
-        raise OutputExistsError(
-            f"output file {str(path)!r} exists; use --force (or choose another path) to overwrite"
-        )
+    """Refuse an existing target unless ``force`` (regular files and links to them only)."""
+    check_existing(Path(path), force)
 
 
 class MemorySink:
