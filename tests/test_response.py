@@ -237,3 +237,30 @@ def test_cli_bad_response_input_exit_2(tmp_path, toml):
                         "--events", "10", "--quiet"], capture_output=True, text=True)
     assert r.returncode == 2, r.stderr
     assert not out.exists() and "error" in r.stderr
+
+
+def test_response_golden_stream_snapshot():
+    # snapshot of this implementation (not a physics reference): the response stream of the
+    # golden configuration of tests/test_api.py; changes only with a changelogged decision
+    from generator.pipeline import memory_run
+
+    cfg = make_config({
+        "exposure": {"start_utc": "2031-01-01T00:00:00Z", "stop_utc": "2031-01-08T00:00:00Z"},
+        "sources": {"include": ["8B"]},
+        "interaction": {"threshold_mev": 5.0},
+        "run": {"chunk_size": 1000},
+    })
+    sink, _ = memory_run(cfg, 4, seed=20311231)
+    ev = sink.arrays()
+    got = np.column_stack([ev["reco_energy"], ev["n_pe"], ev["reco_cos_sun"],
+                           ev["reco_vertex"][:, 0], ev["triggered"]])
+    np.testing.assert_allclose(got, RESPONSE_GOLDEN, rtol=1e-5, atol=1e-3)
+
+
+#: columns: reco_energy MeV, n_pe, reco_cos_sun, reco_vertex x mm, triggered
+RESPONSE_GOLDEN = np.array([
+    [6.386694431304932, 40.0, 0.9340337514877319, -1068.5673828125, 1.0],
+    [6.387338638305664, 40.0, 0.8505279421806335, 4135.79931640625, 1.0],
+    [7.1252312660217285, 44.0, 0.8181421160697937, -5221.28466796875, 1.0],
+    [6.020291328430176, 37.0, 0.7855761051177979, 4547.50634765625, 1.0],
+])
