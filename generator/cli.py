@@ -83,6 +83,10 @@ def build_parser() -> argparse.ArgumentParser:
                            description="Print the effective configuration (defaults merged).")
     show.add_argument("config", nargs="?", help="TOML configuration file, or an event file "
                                                 "(.h5) whose recorded configuration is printed")
+    show.add_argument("--example", metavar="NAME",
+                      help="print a shipped example configuration (see 'config examples')")
+    csub.add_parser("examples", help="list the shipped example configurations",
+                    description="List the example configurations shipped with the package.")
 
     i = sub.add_parser("inspect", help="summarise an event file",
                        description="Counts by origin and flavour, energy ranges, exposure and "
@@ -151,7 +155,17 @@ def _cmd_generate(args: argparse.Namespace) -> int:
 
 def _cmd_config_show(args: argparse.Namespace) -> int:
     from .config import check_data_files, load_config, to_toml
+    from .examples import example_names, example_path
 
+    if args.config_command == "examples":
+        for name in example_names():
+            cfg = load_config(example_path(name))
+            print(f"{name:<18s} {cfg.detector.name}")
+        return 0
+    if args.example is not None:
+        if args.config is not None:
+            raise InputError("config show: give either CONFIG or --example, not both")
+        args.config = str(example_path(args.example))
     if args.config is not None and _is_hdf5(args.config):
         from .io import EventFile
 

@@ -108,3 +108,26 @@ def test_wording_and_accessors(event_file):
         assert {"name", "code", "flux"} <= set(tables)
     with h5py.File(event_file) as f:
         assert "trade" not in f["sources/name"].attrs["description"]
+
+
+def test_examples_are_listed_and_shown(tmp_path):
+    r = run_cli("config", "examples", cwd=tmp_path)
+    assert r.returncode == 0
+    names = [ln.split()[0] for ln in r.stdout.splitlines()]
+    assert {"water_cherenkov", "scintillator", "hybrid_wbls"} <= set(names)
+    r = run_cli("config", "show", "--example", "hybrid_wbls", cwd=tmp_path)
+    assert r.returncode == 0, r.stderr
+    run_list = tomllib.loads(r.stdout)["exposure"]["run_list"]
+    assert Path(run_list).is_file()
+    r = run_cli("config", "show", "--example", "nope", cwd=tmp_path)
+    assert r.returncode == 2 and "available" in r.stderr
+
+
+def test_api_example_runs_from_any_folder(tmp_path):
+    env = dict(os.environ)
+    env.pop("PYTHONPATH", None)
+    r = subprocess.run([sys.executable, str(ROOT / "examples" / "api_example.py")], cwd=tmp_path,
+                       env=env, capture_output=True, text=True, timeout=600)
+    assert r.returncode == 0, r.stderr
+    assert "night fraction" in r.stdout
+    assert (tmp_path / "outputs" / "api_example.h5").is_file()
