@@ -175,9 +175,9 @@ OPTICAL_KEYS = ("refractive_index", "light_yield_per_mev", "birks_kb_cm_per_mev"
 #:   invented for demos (a 1 % WbLS produces O(100–250) photons/MeV, arXiv:2312.09293, from
 #:   memory).
 #: * Birks constants for electrons: LAB 0.0070 cm/MeV (LAB experiments report 0.0065–0.0098,
-#:   from memory), pseudocumene 0.0110 cm/MeV (Borexino, PRD 89, 112007 (2014), from memory).
+#:   from memory), pseudocumene 0.0110 cm/MeV (Bellini et al., PRD 89, 112007 (2014), from memory).
 #: * α quenching factor (α energy / electron-equivalent energy at 5.3 MeV): 12.5 for
-#:   pseudocumene (²¹⁰Po at ≈ 0.42 MeV_ee, Borexino PRD 89, 112007 (2014), from memory), 11.0
+#:   pseudocumene (²¹⁰Po at ≈ 0.42 MeV_ee, Bellini et al., PRD 89, 112007 (2014), from memory), 11.0
 #:   for LAB (LAB scintillators report ≈ 10–14, from memory). For water no α light.
 #: * directional Cherenkov fraction: 1 in water; 0.5 in LAB/PC and 0.8 in the WbLS demo
 #:   (invented, common practice no source: most UV Cherenkov light is absorbed by the fluor).

@@ -91,9 +91,9 @@ class OscillationParams:
 
 
 #: Parameter presets.
-#: "nufit-6.0": NuFIT 6.0, normal ordering without SK atmospheric data (Esteban et al.,
-#: JHEP 12 (2024) 216, arXiv:2410.05380) — best-fit numbers from memory (the table on
-#: nu-fit.org is an image and was not read).
+#: "nufit-6.0": NuFIT 6.0, normal ordering, fit without the external atmospheric χ² table
+#: (Esteban et al., JHEP 12 (2024) 216, arXiv:2410.05380) — best-fit numbers from memory (the
+#: table on nu-fit.org is an image and was not read).
 #: "pdg-2024": pdgLive summary values (sin²θ₁₂ 0.307, Δm²₂₁ 7.53e-5 eV², sin²θ₁₃ 0.0219,
 #: sin²θ₂₃ 0.547 NO, Δm²₃₂ 2.437e-3 eV² NO so Δm²₃₁ = Δm²₃₂ + Δm²₂₁, δ = 1.36π); read from the
 #: listings, edition not confirmed to be exactly 2024.

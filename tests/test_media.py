@@ -24,7 +24,8 @@ def test_pseudocumene_electrons_per_tonne_iupac():
     # C9H12: 9·6 + 12·1 = 66 electrons, molar mass 9 A_C + 12 A_H
     expected = 1e6 / (9 * A_C + 12 * A_H) * 66 * sc.N_A
     assert MEDIA["pc"].electrons_per_tonne == pytest.approx(expected, rel=1e-12)
-    # Borexino quotes (3.307 ± 0.003) × 10³¹ e⁻/100 t for pseudocumene (from memory)
+    # Bellini et al., Phys. Rev. D 89, 112007 (2014) quote (3.307 ± 0.003) × 10³¹ e⁻/100 t
+    # for pseudocumene (from memory)
     assert MEDIA["pc"].electrons_per_tonne * 100 == pytest.approx(3.307e31, abs=0.003e31)
 
 

@@ -160,7 +160,7 @@ def test_energy_matrix_matches_sampler(medium, particle, energies, gamma):
 
 
 def test_alpha_quenched_and_water_blind_to_alpha():
-    # ²¹⁰Po α (5.304 MeV) in pseudocumene: ≈ 0.4 MeV electron-equivalent (Borexino, PRD 89,
+    # ²¹⁰Po α (5.304 MeV) in pseudocumene: ≈ 0.4 MeV electron-equivalent (Bellini et al., PRD 89,
     # 112007 (2014); from memory); in water an α is far below the Cherenkov threshold
     rng = np.random.default_rng(12)
     pc = _model("pc")
