@@ -444,3 +444,16 @@ def test_custom_spectrum_roundtrip(tmp_path):
     assert np.trapezoid(f, e) == pytest.approx(1.0, abs=1e-12)
     x = sp.sample(np.random.default_rng(2), 100_000)
     assert stats.kstest(x, stats.triang(c=0.5, loc=0, scale=2).cdf).pvalue > P_MIN
+
+
+def test_spectrum_pickles_and_stays_immutable():
+    """Plans are shipped to worker processes by value: spectra must survive pickling."""
+    import pickle
+
+    s = get_spectrum("8B", "measured")
+    t = pickle.loads(pickle.dumps(s))
+    a = s.sample(np.random.default_rng(3), 1000)
+    b = t.sample(np.random.default_rng(3), 1000)
+    assert np.array_equal(a, b)
+    with pytest.raises(AttributeError):
+        t.name = "other"

@@ -117,6 +117,15 @@ class Spectrum:
     def __setattr__(self, key: str, value: object) -> None:
         raise AttributeError(f"Spectrum is immutable; cannot set {key!r}")
 
+    def __getstate__(self) -> dict[str, object]:
+        """State for pickling (process pools and dask workers ship plans by value)."""
+        return {k: getattr(self, k) for k in self.__slots__}
+
+    def __setstate__(self, state: dict[str, object]) -> None:
+        """Restore a pickled spectrum without going through the immutability guard."""
+        for k, v in state.items():
+            object.__setattr__(self, k, v)
+
     def __repr__(self) -> str:
         return (
             f"Spectrum(name={self.name!r}, e_max={self.e_max:.4f} MeV, lines={self.lines}, "
