@@ -425,11 +425,13 @@ def _parse_oscillation(t: Any) -> OscillationConfig:
     s.finish()
     if vals["dm2_31"] == 0.0:
         raise ConfigError("oscillation.dm2_31: 0.0 is not allowed; give a non-zero splitting (eV²)")
-    from .oscillation import PRESETS
+    from .oscillation import PRESETS, RENAMED_PRESETS
 
     if preset not in PRESETS:
+        new = RENAMED_PRESETS.get(preset)
+        hint = f" ({preset!r} is now {new!r})" if new else ""
         raise ConfigError(
-            f"oscillation.preset: unknown preset {preset!r}; allowed: {list(PRESETS)}"
+            f"oscillation.preset: unknown preset {preset!r}; allowed: {list(PRESETS)}{hint}"
         )
     return OscillationConfig(enabled, preset, earth, profile, **vals)
 

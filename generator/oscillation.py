@@ -38,6 +38,7 @@ from generator.errors import ConfigError
 __all__ = [
     "OscillationParams",
     "PRESETS",
+    "RENAMED_PRESETS",
     "get_preset",
     "pmns_matrix",
     "matter_mass_fractions",
@@ -90,17 +91,51 @@ class OscillationParams:
             raise ConfigError(f"oscillation.dm2_31: {d31!r}; need a finite non-zero value (eV²)")
 
 
-#: Parameter presets.
-#: "nufit-6.0": NuFIT 6.0, normal ordering, fit without the external atmospheric χ² table
-#: (Esteban et al., JHEP 12 (2024) 216, arXiv:2410.05380) — best-fit numbers from memory (the
-#: table on nu-fit.org is an image and was not read).
-#: "pdg-2024": pdgLive summary values (sin²θ₁₂ 0.307, Δm²₂₁ 7.53e-5 eV², sin²θ₁₃ 0.0219,
-#: sin²θ₂₃ 0.547 NO, Δm²₃₂ 2.437e-3 eV² NO so Δm²₃₁ = Δm²₃₂ + Δm²₂₁, δ = 1.36π); read from the
-#: listings, edition not confirmed to be exactly 2024.
+#: Parameter presets (PDG parametrisation; dm2_31 = m₃² − m₁², negative for inverted ordering).
+#:
+#: ``"nufit-6.0"`` — NuFIT 6.0 (Esteban, Gonzalez-Garcia, Maltoni, Martinez-Soler, Pinheiro &
+#: Schwetz, JHEP 12 (2024) 216, arXiv:2410.05380): best fit for **normal ordering** of the
+#: global analysis **without** the external atmospheric-neutrino χ² tables
+#: (upper section, NO column of the parameter table on nu-fit.org v6.0, node/294, which also
+#: states Δm²₃ℓ = Δm²₃₁ > 0 for NO).  Each number:
+#:   sin²θ₁₂ = 0.307    (θ₁₂ = 33.68°)
+#:   sin²θ₁₃ = 0.02195  (θ₁₃ = 8.52°)
+#:   sin²θ₂₃ = 0.561    (θ₂₃ = 48.5°)
+#:   δ_CP    = 177°
+#:   Δm²₂₁   = 7.49 × 10⁻⁵ eV²  (±0.19)
+#:   Δm²₃₁   = +2.534 × 10⁻³ eV² (+0.025 −0.023)
+#: Provenance: the table itself (an image on nu-fit.org; Table 1 of the paper) was not read.
+#: The values are confirmed only by secondary sources: several independent public codes quoting
+#: "NuFIT 6.0, NO, without the external atmospheric χ²" give exactly the angles, δ and
+#: splittings above (with the Δm² errors), and the angles reproduce the sin² values to their
+#: printed digits (sin² 33.68° = 0.3075, sin² 8.52° = 0.02195, sin² 48.5° = 0.5609).
+#:
+#: ``"pdglive-pre2024"`` — the PDG's online listings (pdgLive, particle S067 "Neutrino
+#: mixing"), as stored by the search tool.  The pages do not state their edition; their newest
+#: entries (2020–2023) show that they predate the 2024 Review, so this preset is **not** the
+#: PDG 2024 summary (it was called "pdg-2024" before; that name was wrong).  Each number:
+#:   sin²θ₁₂ = 0.307 ± 0.013                 summary page S067
+#:   Δm²₂₁   = (7.53 ± 0.18) × 10⁻⁵ eV²      summary page S067 (a newer S067DM3 listing
+#:                                            reads 7.60 ± 0.17 with 2025 entries)
+#:   sin²θ₁₃ = (2.19 ± 0.07) × 10⁻²          listing S067P13 (newest entries 2023), as quoted
+#:                                            in the project's reference note; not re-read here
+#:   sin²θ₂₃ = 0.547 (+0.018 −0.024), NO     listing S067P23 "OUR FIT" as quoted in the
+#:                                            reference note (newest entries 2022); another
+#:                                            stored version of that page reads 0.545 ± 0.021
+#:                                            (NO) and 0.547 ± 0.021 (IO)
+#:   Δm²₃₂   = (2.437 ± 0.033) × 10⁻³ eV², NO  listing S067DM1 "OUR FIT" (newest entries 2022);
+#:                                            Δm²₃₁ = Δm²₃₂ + Δm²₂₁ = 2.5123 × 10⁻³ eV²
+#:   δ       = (1.36 ± 0.17) π = 244.8°       listing S067DEL "OUR AVERAGE" (newest entries
+#:                                            2020; a newer version reads 1.69 (+0.11 −0.08) π)
 PRESETS: dict[str, OscillationParams] = {
     "nufit-6.0": OscillationParams(0.307, 0.02195, 0.561, 177.0, 7.49e-5, 2.534e-3),
-    "pdg-2024": OscillationParams(0.307, 0.0219, 0.547, 1.36 * 180.0, 7.53e-5, 2.437e-3 + 7.53e-5),
+    "pdglive-pre2024": OscillationParams(0.307, 0.0219, 0.547, 1.36 * 180.0, 7.53e-5,
+                                         2.437e-3 + 7.53e-5),
 }
+
+
+#: Former preset names and their replacements (named in the error message).
+RENAMED_PRESETS: dict[str, str] = {"pdg-2024": "pdglive-pre2024"}
 
 
 def get_preset(name: str) -> OscillationParams:
@@ -108,8 +143,10 @@ def get_preset(name: str) -> OscillationParams:
     try:
         return PRESETS[name]
     except KeyError:
+        hint = (f" ({name!r} was renamed {RENAMED_PRESETS[name]!r}: its values predate the "
+                "2024 Review)") if name in RENAMED_PRESETS else ""
         raise ConfigError(
-            f"oscillation.preset: unknown value {name!r}; allowed: {sorted(PRESETS)}"
+            f"oscillation.preset: unknown value {name!r}; allowed: {sorted(PRESETS)}{hint}"
         ) from None
 
 

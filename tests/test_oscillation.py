@@ -20,7 +20,8 @@ from generator.oscillation import (
     vacuum_flavour_probs,
 )
 
-# Parameters of the oscillation.md §2.3/§2.7 check tables (NuFIT 6.0 NO best fit, from memory).
+# Parameters of the oscillation.md §2.3/§2.7 check tables: the nufit-6.0 preset (NO without
+# the external atmospheric χ²; provenance in generator/oscillation.py).
 REF = OscillationParams(0.307, 0.02195, 0.561, 177.0, 7.49e-5, 2.534e-3)
 
 
@@ -54,10 +55,33 @@ def test_params_validation(field, value):
 
 def test_inverted_ordering_allowed_and_presets():
     OscillationParams(0.3, 0.02, 0.5, 270.0, 7.5e-5, -2.5e-3)
-    assert set(PRESETS) >= {"nufit-6.0", "pdg-2024"}
+    assert set(PRESETS) >= {"nufit-6.0", "pdglive-pre2024"}
     assert get_preset("nufit-6.0") is PRESETS["nufit-6.0"]
     with pytest.raises(ConfigError, match="preset"):
         get_preset("nufit-0.1")
+    with pytest.raises(ConfigError, match="renamed 'pdglive-pre2024'"):
+        get_preset("pdg-2024")
+
+
+def test_preset_values_against_their_sources():
+    # NuFIT 6.0, NO without the external atmospheric χ² (arXiv:2410.05380), as quoted by
+    # independent public codes (secondary sources; see PRESETS): θ12 33.68°, θ13 8.52°,
+    # θ23 48.5°, δ 177°, Δm²21 7.49e-5 eV², Δm²31 +2.534e-3 eV²; angles printed to 0.01°/0.1°.
+    nf = PRESETS["nufit-6.0"]
+    # the angle, rounded as printed, and the sin² value, rounded as printed, must overlap
+    for s2, s2_step, deg, deg_step in [(nf.sin2_theta12, 1e-3, 33.68, 0.01),
+                                       (nf.sin2_theta13, 1e-5, 8.52, 0.01),
+                                       (nf.sin2_theta23, 1e-3, 48.5, 0.1)]:
+        lo, hi = np.sin(np.radians([deg - deg_step / 2, deg + deg_step / 2])) ** 2
+        assert lo <= s2 + s2_step / 2 and hi >= s2 - s2_step / 2
+    assert (nf.delta_cp_deg, nf.dm2_21, nf.dm2_31) == (177.0, 7.49e-5, 2.534e-3)
+    # pdgLive listings (S067, S067DM1, S067DEL; S067P13/S067P23 as quoted in the reference
+    # note): sin²θ12 0.307, Δm²21 7.53e-5, sin²θ13 0.0219, sin²θ23 0.547 (NO),
+    # Δm²32 2.437e-3 eV² (NO), δ 1.36π.
+    pl = PRESETS["pdglive-pre2024"]
+    assert (pl.sin2_theta12, pl.sin2_theta13, pl.sin2_theta23) == (0.307, 0.0219, 0.547)
+    assert pl.delta_cp_deg == pytest.approx(1.36 * 180.0)
+    assert pl.dm2_21 == 7.53e-5 and pl.dm2_31 - pl.dm2_21 == pytest.approx(2.437e-3, rel=1e-12)
 
 
 def test_bad_model_inputs(tmp_path):
@@ -290,3 +314,15 @@ def test_profile_shift_8b_and_7be():
     d8 = pe["ssm"][0] - pe["exponential"][0]
     assert 0.005 < d8 < 0.04
     assert abs(pe["ssm"][1] - pe["exponential"][1]) < 0.02
+
+
+def test_config_names_the_renamed_preset():
+    import tomllib
+    from pathlib import Path
+
+    from generator.config import default_config_text, parse_config
+
+    data = tomllib.loads(default_config_text())
+    data["oscillation"]["preset"] = "pdg-2024"
+    with pytest.raises(ConfigError, match="'pdg-2024' is now 'pdglive-pre2024'"):
+        parse_config(data, Path.cwd())
