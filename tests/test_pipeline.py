@@ -113,13 +113,19 @@ def test_source_mix_follows_expected_rates(sample):
     codes = np.array([sp.code for sp in plan.sources])
     expected = np.array([sp.expected_events for sp in plan.sources]) / plan.expected_total
     counts = np.array([(ev["origin"] == c).sum() for c in codes])
-    keep = expected * counts.sum() > 5       # χ² needs ≳ 5 expected per cell
+    p, obs, exp = source_mix_pvalue(counts, expected)
+    assert p > 1e-3, (obs, exp)
+
+
+def source_mix_pvalue(counts: np.ndarray, fractions: np.ndarray):
+    """χ² p-value of per-source counts against expected fractions (sources with < 5 expected
+    events pooled into one cell); returns (p, observed, expected)."""
+    keep = fractions * counts.sum() > 5       # χ² needs ≳ 5 expected per cell
     obs = np.append(counts[keep], counts[~keep].sum())
-    exp = np.append(expected[keep], expected[~keep].sum()) * counts.sum()
+    exp = np.append(fractions[keep], fractions[~keep].sum()) * counts.sum()
     if exp[-1] == 0:
         obs, exp = obs[:-1], exp[:-1]
-    p = stats.chisquare(obs, exp).pvalue
-    assert p > 1e-3, (obs, exp)
+    return stats.chisquare(obs, exp).pvalue, obs, exp
 
 
 def test_flavour_mix_follows_probabilities(sample):
