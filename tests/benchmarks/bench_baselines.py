@@ -2,7 +2,7 @@
 
 Usage::
 
-    python tests/benchmarks/bench_baselines.py [N_LOOP [N_STATS]]   # default 100 and 5
+    python tests/benchmarks/bench_baselines.py [N_LOOP [N_STATS]]   # default 60 and 3
 
 Physics of the comparison (identical for the three samplers): ⁸B neutrinos (the configured
 spectrum), ν_e only (oscillations off), the default detector's cross-section model, recoil
@@ -19,7 +19,7 @@ T_th. Measured in the same run:
   (E with pdf ∝ f(E) σ(E), normalised once; T | E with the energy as shape parameter), sampled
   with ``.rvs`` (scipy's generic numerical inversion of the cdf).
 
-Prints events/s and the ratios (goal ≥ 100× over the naive loop). Default run ≈ 45 s on the
+Prints events/s and the ratios (goal ≥ 100× over the naive loop). Default run ≈ 30 s of CPU on the
 shared 2-core machine (the naive samplers run at ≈ 7 and ≈ 0.2 events/s); wall-clock
 numbers under contention are noisy, the ratios less so.
 """
@@ -129,8 +129,8 @@ def _rate(fn, n: int) -> float:
 
 def main() -> None:
     warnings.simplefilter("ignore", integrate.IntegrationWarning)   # scipy's generic cdf
-    n_loop = int(float(sys.argv[1])) if len(sys.argv) > 1 else 100
-    n_stats = int(float(sys.argv[2])) if len(sys.argv) > 2 else 5
+    n_loop = int(float(sys.argv[1])) if len(sys.argv) > 1 else 60
+    n_stats = int(float(sys.argv[2])) if len(sys.argv) > 2 else 3
     plan = _plan()
     spec, model = plan.sources[0].spectrum, plan.xsec
     n_vec = 1 << 19
