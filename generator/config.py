@@ -2,7 +2,7 @@
 
 Sections ``[detector]``, ``[exposure]``, ``[sources]``, ``[oscillation]``, ``[interaction]``,
 ``[run]``, ``[output]``, and the optional ``[response]`` and ``[media.<name>]`` (parsed in
-:mod:`generator.response.config`); ``[backgrounds]`` is reserved (rejected until it exists).
+:mod:`generator.response.config`) and ``[backgrounds]`` (:mod:`generator.backgrounds.config`).
 The embedded default (``generator/data/default.toml``, a fictional mid-size water-Cherenkov
 detector at a fictional site) is used when no file is given; a user file is merged over it key
 by key (for ``[exposure]`` a file that sets any of ``stop_utc``, ``live_days`` or ``run_list``
@@ -33,9 +33,7 @@ __all__ = ["Config", "DetectorConfig", "ExposureConfig", "SourcesConfig", "Custo
            "MAX_CHUNK_SIZE"]
 
 KNOWN_SOURCES = ("pp", "pep", "hep", "7Be", "8B", "13N", "15O", "17F")
-RESERVED_SECTIONS = {
-    "backgrounds": "the radioactive-background stage is not implemented yet",
-}
+RESERVED_SECTIONS: dict[str, str] = {}
 COMPRESSIONS = ("deflate", "blosc-lz4", "zstd", "lzf", "gzip", "none")
 COUNT_MODES = ("fixed", "expected", "poisson")
 #: Most events one run may produce (every count mode and --events).
@@ -63,6 +61,7 @@ class DetectorConfig:
     depth_m: float
     target_mass_t: float | None = None
     target_electrons: float | None = None
+    fiducial_half_lengths_m: tuple[float, float, float] | None = None   # box only
 
 
 @dataclass(frozen=True)
@@ -160,6 +159,7 @@ class Config:
     output: OutputConfig
     response: Any = None              # generator.response.config.ResponseConfig
     media: tuple = ()                 # generator.response.config.MediumConfig entries
+    backgrounds: Any = None           # generator.backgrounds.config.BackgroundsConfig
     source_file: str | None = None
 
 
@@ -282,17 +282,32 @@ def _parse_detector(t: Any, media: tuple[str, ...] = ()) -> DetectorConfig:
         target_mass_t=s.number("target_mass_t", lo=0.0, hi=1e9, lo_open=True, optional=True),
         target_electrons=s.number("target_electrons", lo=0.0, hi=1e45, lo_open=True,
                                   optional=True),
+        fiducial_half_lengths_m=_box(s._get("fiducial_half_lengths_m", None)),
     )
     s.finish()
     if cfg.target_mass_t is not None and cfg.target_electrons is not None:
         raise ConfigError("detector.target_electrons: give either target_mass_t or "
                           "target_electrons, not both")
+    if cfg.fiducial_shape == "box" and cfg.fiducial_half_lengths_m is None:
+        raise ConfigError("detector.fiducial_half_lengths_m: required for a box (three half "
+                          "lengths [x, y, z] in m)")
     if cfg.fiducial_shape == "cylinder" and cfg.fiducial_half_height_m <= 0.0:
         raise ConfigError(
             f"detector.fiducial_half_height_m: {cfg.fiducial_half_height_m} must be > 0 "
             "for a cylinder"
         )
     return cfg
+
+
+def _box(v: Any) -> tuple[float, float, float] | None:
+    if v is None:
+        return None
+    if not isinstance(v, list) or len(v) != 3:
+        raise ConfigError(f"detector.fiducial_half_lengths_m: expected three numbers [x, y, z] "
+                          f"in m, got {_fmt(v)}")
+    a, b, c = (_check_number(f"detector.fiducial_half_lengths_m[{i}]", x, 0.0, 1000.0, True)
+               for i, x in enumerate(v))
+    return (a, b, c)
 
 
 def _parse_exposure(t: Any, base_dir: Path | None) -> ExposureConfig:
@@ -523,7 +538,8 @@ def parse_config(data: dict, base_dir: Path | None = None, source_file: str | No
         Naming the key path, the bad value and what is allowed.
     """
     known = ("detector", "exposure", "sources", "oscillation", "interaction", "run", "output")
-    optional = ("response", "media")
+    optional = ("response", "media", "backgrounds")
+    from .backgrounds.config import check_vessels, parse_backgrounds
     from .response.config import parse_media, parse_response
 
     for k in [k for k in data if k not in optional]:
@@ -536,8 +552,11 @@ def parse_config(data: dict, base_dir: Path | None = None, source_file: str | No
         if k not in data:
             raise ConfigError(f"{k}: required section is missing")
     media = parse_media(data.get("media", {}))
+    detector = _parse_detector(data["detector"], tuple(m.name for m in media))
+    backgrounds = parse_backgrounds(data.get("backgrounds"))
+    check_vessels(backgrounds, detector)
     return Config(
-        detector=_parse_detector(data["detector"], tuple(m.name for m in media)),
+        detector=detector,
         exposure=_parse_exposure(data["exposure"], base_dir),
         sources=_parse_sources(data["sources"], base_dir),
         oscillation=_parse_oscillation(data["oscillation"]),
@@ -546,6 +565,7 @@ def parse_config(data: dict, base_dir: Path | None = None, source_file: str | No
         output=_parse_output(data["output"]),
         response=parse_response(data.get("response", {"enabled": False})),
         media=media,
+        backgrounds=backgrounds,
         source_file=source_file,
     )
 
@@ -638,7 +658,7 @@ def to_toml(cfg: Config) -> str:
     """Write the effective configuration as TOML text (round-trips through :func:`parse_config`)."""
     lines: list[str] = []
     for section in fields(cfg):
-        if section.name in ("source_file", "response", "media"):
+        if section.name in ("source_file", "response", "media", "backgrounds"):
             continue
         obj = getattr(cfg, section.name)
         lines.append(f"[{section.name}]")
@@ -664,6 +684,8 @@ def to_toml(cfg: Config) -> str:
                 for f in fields(item):
                     lines.append(f"{f.name} = {_toml_value(getattr(item, f.name))}")
         lines.append("")
+    from .backgrounds.config import backgrounds_toml_lines
     from .response.config import media_toml_lines, response_toml_lines
 
-    return "\n".join(lines + response_toml_lines(cfg.response) + media_toml_lines(cfg.media))
+    return "\n".join(lines + response_toml_lines(cfg.response) + media_toml_lines(cfg.media)
+                     + backgrounds_toml_lines(cfg.backgrounds))

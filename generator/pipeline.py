@@ -29,6 +29,10 @@ One :class:`numpy.random.SeedSequence` per run; chunk k of ``chunk_size`` events
 (package version, configuration, seed, chunk index, chunk size): reruns are bit-identical, and a
 later resume or a shard that generates chunks k₀…k₁ produces exactly the same events.
 The Poisson-fluctuated event count (``count_mode = "poisson"``) uses spawn key (2³¹,).
+With ``[backgrounds]`` on, the origin of each event is drawn from one combined table over
+(sources, background isotopes) by the same uniform that picks the source, and background events
+are filled from ``spawn_key=(k, 2)`` (:mod:`generator.backgrounds.stage`); the weights stay
+expected events (signal + backgrounds) per generated event.
 """
 
 from __future__ import annotations
@@ -44,6 +48,7 @@ from typing import Any
 import numpy as np
 
 from . import __version__, kinematics, spectra
+from .backgrounds import background_seed
 from .config import MAX_EVENTS, Config, to_toml
 from .constants import CODATA_EDITION_NOTE, SECONDS_PER_DAY
 from .errors import ConfigError, InputError
@@ -72,7 +77,7 @@ N_ZENITH_BINS = 200
 #: PDG codes of the three neutrino flavours, in the column order of the probability tables.
 FLAVOUR_PDG = np.array([12, 14, 16], dtype=np.int16)
 
-#: Stages that are not implemented yet and therefore absent from the event files.
+#: Optional stages, absent from the event files unless switched on.
 ABSENT_STAGES = ("detector response (reconstructed fields)", "radioactive backgrounds")
 
 
@@ -112,6 +117,7 @@ class RunPlan:
     zenith_edges: np.ndarray = field(repr=False)
     zenith_weights: np.ndarray = field(repr=False)
     response: Any = None              # generator.response.ResponseModel, or None when off
+    backgrounds: Any = None           # generator.backgrounds.BackgroundPlan, or None when off
 
     @property
     def expected_rate_per_day(self) -> float:
@@ -158,7 +164,8 @@ def build_plan(cfg: Config) -> RunPlan:
     from .response import build_media, build_response
 
     medium = get_medium(det.medium, build_media(cfg.media))
-    fid = make_fiducial(det.fiducial_shape, det.fiducial_radius_m, det.fiducial_half_height_m)
+    fid = make_fiducial(det.fiducial_shape, det.fiducial_radius_m, det.fiducial_half_height_m,
+                        det.fiducial_half_lengths_m)
     n_e = target_electrons(medium, fid.volume_cm3, det.target_mass_t, det.target_electrons)
     response = build_response(cfg, medium)
     exposure = Exposure(_intervals(cfg), det.latitude_deg, det.longitude_deg)
@@ -204,14 +211,16 @@ def build_plan(cfg: Config) -> RunPlan:
     for name, code, region, phi, spec in entries:
         plans.append(_plan_source(name, code, region, phi, spec, recoil, flavour, pdgs,
                                   centres, wz, w_total, n_e))
+    from .backgrounds import build_backgrounds, combined_cdf
+
+    bg = build_backgrounds(cfg, fid, medium.density_g_cm3, exposure.live_seconds,
+                           exposure.intervals)
     expected = np.array([p.expected_events for p in plans])
-    total = float(expected.sum())
+    total = float(expected.sum()) + (float(bg.expected.sum()) if bg is not None else 0.0)
     if not total > 0.0:
         raise _no_events_error(plans, n_e, exposure, ic.threshold_mev)
-    cdf = np.cumsum(expected) / total
-    cdf[-1] = 1.0
     return RunPlan(cfg, medium, fid, n_e, exposure, xs, recoil, flavour, pdgs, plans, total,
-                   cdf, edges, wz, response)
+                   combined_cdf(expected, bg), edges, wz, response, bg)
 
 
 def _no_events_error(plans: list[SourcePlan], n_e: float, exposure: Exposure,
@@ -350,9 +359,11 @@ def chunk_seed(entropy: int, k: int) -> np.random.SeedSequence:
     return np.random.SeedSequence(entropy, spawn_key=(k,))
 
 
-def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: float
-                   ) -> dict[str, np.ndarray]:
-    """Draw ``n`` truth-level events (a pure function of the plan and the random stream).
+def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: float,
+                   bg_rng: np.random.Generator | None = None) -> dict[str, np.ndarray]:
+    """Draw ``n`` truth-level events (a pure function of the plan and the random streams).
+
+    ``bg_rng`` (the chunk's background stream) is required when the plan has backgrounds.
 
     Returns
     -------
@@ -361,7 +372,17 @@ def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: floa
     """
     out = empty_chunk(n)
     src = np.searchsorted(plan.source_cdf, rng.random(n), side="right")
-    src = np.minimum(src, len(plan.sources) - 1)
+    src = np.minimum(src, plan.source_cdf.size - 1)
+    n_src = len(plan.sources)
+    sig: Any = slice(None)
+    if plan.backgrounds is not None:
+        if bg_rng is None:
+            raise ValueError("generate_chunk: a plan with backgrounds needs bg_rng")
+        sig = np.flatnonzero(src < n_src)
+        bkg = np.flatnonzero(src >= n_src)
+        plan.backgrounds.fill(out, bkg, src[bkg] - n_src, bg_rng, plan.fiducial,
+                              plan.exposure.sun, weight)
+        src, n = src[sig], sig.size
     energy = np.empty(n)
     times = np.empty(n)
     flav = np.empty(n, dtype=np.intp)
@@ -397,18 +418,20 @@ def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: floa
     pdg = FLAVOUR_PDG[flav] if len(plan.pdgs) == 3 else np.full(n, pdg_arr[0], np.int16)
     t_e = plan.recoil.sample(rng, energy, pdg)
     e_dir, _, _ = kinematics.scatter(rng, energy, t_e, nu_dir)
-    out["time_utc"][:] = times
-    out["origin"][:] = np.array([sp.code for sp in plan.sources], dtype=np.int16)[src]
-    out["nu_pdg"][:] = pdg
-    out["nu_energy"][:] = energy
-    out["nu_dir"][:] = nu_dir
-    out["e_kinetic"][:] = t_e
-    out["e_dir"][:] = e_dir
-    out["vertex"][:] = plan.fiducial.sample(rng, n)
-    out["cos_sun"][:] = np.einsum("ij,ij->i", e_dir, nu_dir)
-    out["sun_cos_zenith"][:] = cosz
-    out["is_night"][:] = cosz < 0.0
-    out["weight"][:] = weight
+    out["time_utc"][sig] = times
+    out["origin"][sig] = np.array([sp.code for sp in plan.sources], dtype=np.int16)[src]
+    out["nu_pdg"][sig] = pdg
+    out["nu_energy"][sig] = energy
+    out["nu_dir"][sig] = nu_dir
+    out["e_kinetic"][sig] = t_e
+    out["e_dir"][sig] = e_dir
+    out["vertex"][sig] = plan.fiducial.sample(rng, n)
+    out["cos_sun"][sig] = np.einsum("ij,ij->i", e_dir, nu_dir)
+    out["sun_cos_zenith"][sig] = cosz
+    out["is_night"][sig] = cosz < 0.0
+    out["weight"][sig] = weight
+    out["particle"][sig] = 11
+    out["gamma_energy"][sig] = 0.0
     return out
 
 
@@ -442,11 +465,13 @@ def _event_count(plan: RunPlan, entropy: int, n_events: int | None) -> int:
     return int(rng.poisson(plan.expected_total))
 
 
-def _stage_names(response_on: bool) -> dict[str, str]:
+def _stage_names(response_on: bool, backgrounds_on: bool = False) -> dict[str, str]:
     """``stages_present``/``stages_absent`` attributes."""
     present = "sources, cross sections, ephemeris, solar MSW, Earth regeneration"
-    absent = [s for s in ABSENT_STAGES if not (response_on and s.startswith("detector"))]
-    return {"stages_present": present + (", detector response" if response_on else ""),
+    on = {ABSENT_STAGES[0]: response_on, ABSENT_STAGES[1]: backgrounds_on}
+    absent = [s for s in ABSENT_STAGES if not on[s]]
+    return {"stages_present": present + (", radioactive backgrounds" if backgrounds_on else "")
+            + (", detector response" if response_on else ""),
             "stages_absent": "; ".join(absent) or "none"}
 
 
@@ -478,9 +503,22 @@ def provenance(plan: RunPlan, entropy: int, n: int) -> dict[str, Any]:
         "units_convention": "MeV for energies and mm for lengths inside events; UTC seconds "
                             "since the Unix epoch for event times; cm^2 and cm^-2 s^-1 for "
                             "cross sections and fluxes",
-        **_stage_names(False),
+        **_stage_names(False, plan.backgrounds is not None),
+        **_background_attrs(plan),
         "constants": CODATA_EDITION_NOTE,
     }
+
+
+def _background_attrs(plan: RunPlan) -> dict[str, Any]:
+    """Normalisation split between signal and backgrounds (root attributes)."""
+    if plan.backgrounds is None:
+        return {}
+    bg = float(plan.backgrounds.expected.sum())
+    return {"expected_events_backgrounds": bg,
+            "expected_events_signal": plan.expected_total - bg,
+            "background_normalisation": "expected_events = signal + background expected events;"
+            " every event's weight = expected_events / n_events; origin codes >= 100 are "
+            "background isotopes (table /backgrounds)"}
 
 
 def _write_tables(sink: Any, plan: RunPlan) -> None:
@@ -591,19 +629,26 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
             stage.n_triggered = sink.count_nonzero("triggered")
 
         def make(k: int, m: int) -> dict[str, np.ndarray]:
-            ev = generate_chunk(plan, np.random.default_rng(chunk_seed(entropy, k)), m, weight)
+            bg_rng = np.random.default_rng(background_seed(entropy, k)) \
+                if plan.backgrounds is not None else None
+            ev = generate_chunk(plan, np.random.default_rng(chunk_seed(entropy, k)), m, weight,
+                                bg_rng)
             return stage.process(ev, entropy, k) if stage is not None else ev
 
         run_chunks(sink, work, first, make, progress)
-        codes = [sp.code for sp in plan.sources]
+        bgp = plan.backgrounds.isotopes if plan.backgrounds is not None else []
+        codes = [sp.code for sp in plan.sources] + [p.iso.code for p in bgp]
+        names = [sp.name for sp in plan.sources] + [p.iso.name for p in bgp]
         sink.set_field_attrs("origin", {"codes": np.array(codes, np.int16),
-                                        "names": np.array([sp.name for sp in plan.sources],
-                                                          dtype=object)})
+                                        "names": np.array(names, dtype=object)})
         _write_tables(sink, plan)
+        if plan.backgrounds is not None:
+            plan.backgrounds.write_tables(sink)
         sink.set_attrs(attrs)
         if stage is not None:
             stage.write_tables(sink)
-            sink.set_attrs({**stage.attrs(weight), **_stage_names(True)})
+            sink.set_attrs({**stage.attrs(weight),
+                            **_stage_names(True, plan.backgrounds is not None)})
         result = sink.commit()
     except BaseException:
         sink.abort()

@@ -7,7 +7,8 @@ Every field has a fixed dtype chosen on purpose:
 * energies, directions and vertices are float32: 7 significant digits resolve 1 eV at 10 MeV,
   directions to 1e-7 rad and vertices to 1 µm over 20 m — far below any detector resolution.
 * ``weight`` is float64 so that sums over 10⁹ events keep full precision.
-* small integers (origin code, PDG code) are int16 and flags are uint8.
+* small integers (origin code, neutrino PDG code) are int16, the primary's PDG code
+  ``particle`` is int32 (nuclei have 10-digit codes) and flags are uint8.
 
 Directions and vertices are in the detector frame :data:`FRAME_CONVENTION`.
 """
@@ -21,8 +22,9 @@ import numpy as np
 __all__ = ["Field", "EVENT_FIELDS", "FRAME_CONVENTION", "FIELD_BY_NAME", "LAYOUT_VERSION",
            "RESPONSE_FIELDS"]
 
-#: Version of the file layout; bumped when a field changes meaning or type.
-LAYOUT_VERSION = "1"
+#: Version of the file layout; bumped when a field changes meaning or type (2: adds the truth
+#: fields ``particle`` and ``gamma_energy``; files of layout 1 stay readable).
+LAYOUT_VERSION = "2"
 
 #: Detector frame convention, stored in every file.
 FRAME_CONVENTION = (
@@ -59,6 +61,11 @@ EVENT_FIELDS: tuple[Field, ...] = (
     Field("is_night", "u1", (), "", "1 if the Sun is below the horizon (sun_cos_zenith < 0)"),
     Field("weight", "f8", (), "events", "expected events represented by this event for the "
           "configured exposure"),
+    Field("particle", "i4", (), "", "PDG Monte Carlo code of the primary particle: 11 e-, -11 "
+          "e+, 1000020040 alpha, 22 for a gamma-only deposit"),
+    Field("gamma_energy", "f4", (), "MeV", "energy deposited by accompanying gamma rays or "
+          "annihilation quanta (fully contained; the response treats it as one electron of "
+          "that energy); 0 for signal events"),
 )
 
 #: Reconstructed fields of the detector-response stage (present only when it is on).

@@ -1,4 +1,7 @@
-"""Allowed β⁺ neutrino spectra with the relativistic Fermi function, and decay endpoints.
+"""β spectra with the relativistic Fermi function: β⁺ neutrino spectra, β± electron spectra.
+
+The electron (positron) side, :func:`electron_spectrum`, serves the radioactive backgrounds
+(:mod:`generator.backgrounds`); the neutrino side below serves the solar β⁺ sources.
 
 Shape (Fermi theory, allowed approximation, nuclear recoil neglected; e.g. Bahcall,
 *Neutrino Astrophysics*, CUP (1989), ch. 6; Hayen et al., Rev. Mod. Phys. 90, 015008 (2018)):
@@ -22,6 +25,8 @@ re-read from the tables. For β⁺ decay with atomic masses, Q_β = Δ(parent) �
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 
 from generator.constants import ALPHA, ELECTRON_MASS, HBARC_MEV_FM
@@ -33,6 +38,7 @@ __all__ = [
     "nuclear_radius_fm",
     "fermi_function",
     "allowed_shape",
+    "electron_spectrum",
     "q_beta_plus",
     "q_electron_capture",
 ]
@@ -82,11 +88,21 @@ def nuclear_radius_fm(mass_number: int) -> float:
     return 1.2 * float(mass_number) ** (1.0 / 3.0)
 
 
-def fermi_function(z: int, w: np.ndarray, radius_fm: float, positron: bool = True) -> np.ndarray:
-    """Relativistic Fermi function F₀(Z, W) at the nuclear radius (Fermi 1934).
+def fermi_function(z: int, w: np.ndarray, radius_fm: float, positron: bool = True,
+                   k: int = 1) -> np.ndarray:
+    """Relativistic Fermi function F₀(Z, W) at the nuclear radius (Fermi 1934), or F_{k−1}.
 
-    Formula as in the module docstring (see also Hayen et al., RMP 90, 015008 (2018), eq. for
-    F₀). Vectorised over ``w``.
+    F_{k−1} generalises it to the lepton partial wave k (forbidden unique shapes).
+
+    F₀: formula as in the module docstring (see also Hayen et al., RMP 90, 015008 (2018), eq.
+    for F₀). For k ≥ 2 (Konopinski, *The Theory of Beta Radioactivity* (1966); Behrens &
+    Bühring (1982)):
+
+        F_{k−1} = [k (2k−1)!!]² 4^(k−1) (2pR)^(2(γ_k−k)) e^(πη) |Γ(γ_k + iη)|² / Γ(2γ_k + 1)²
+                  × 2(k + γ_k)/k,   γ_k = √(k² − (αZ)²),
+
+    which reduces to F₀ for k = 1 and to 1 for Z → 0; λ_k = F_{k−1}/F₀ are the Coulomb
+    functions of the unique shape factors. Vectorised over ``w``.
 
     Parameters
     ----------
@@ -98,11 +114,13 @@ def fermi_function(z: int, w: np.ndarray, radius_fm: float, positron: bool = Tru
         Nuclear radius in fm.
     positron : bool, optional
         True for β⁺ (repulsive Coulomb field, η < 0), False for β⁻.
+    k : int, optional
+        Lepton partial wave (1 gives F₀).
 
     Returns
     -------
     numpy.ndarray
-        F₀, dimensionless, same shape as ``w``; 0 where ``w <= 1``.
+        F_{k−1}, dimensionless, same shape as ``w``; 0 where ``w <= 1``.
     """
     from scipy.special import gammaln, loggamma  # lazy: keeps package import fast
 
@@ -116,6 +134,18 @@ def fermi_function(z: int, w: np.ndarray, radius_fm: float, positron: bool = Tru
     p = np.sqrt(wv * wv - 1.0)
     eta = (-az if positron else az) * wv / p
     r = radius_fm / _ELECTRON_COMPTON_FM
+    if k != 1:
+        gk = np.sqrt(k * k - az * az)
+        dfact = float(np.prod(np.arange(2 * k - 1, 0, -2)))
+        log_f = (
+            2.0 * np.log(k * dfact) + (k - 1) * np.log(4.0)
+            + 2.0 * (gk - k) * np.log(2.0 * p * r)
+            + np.pi * eta
+            + 2.0 * np.real(loggamma(gk + 1j * eta))
+            - 2.0 * gammaln(2.0 * gk + 1.0)
+            + np.log(2.0 * (k + gk) / k)
+        )
+        return np.where(valid, np.exp(log_f), 0.0)
     log_f = (
         np.log(2.0 * (1.0 + gam))
         + (2.0 * gam - 2.0) * np.log(2.0 * p * r)
@@ -156,6 +186,51 @@ def allowed_shape(
     p = np.sqrt(w * w - 1.0)
     f = fermi_function(z_daughter, w, nuclear_radius_fm(a_daughter), positron=True)
     return np.where(inside, e * e * p * w * f, 0.0)
+
+
+def electron_spectrum(
+    t: np.ndarray,
+    endpoint: float,
+    z_daughter: int,
+    a_daughter: int,
+    positron: bool = False,
+    shape_factor: Callable[[np.ndarray, float], np.ndarray] | None = None,
+) -> np.ndarray:
+    """Unnormalised β⁻ or β⁺ kinetic-energy spectrum p W (W₀ − W)² F₀(Z, W) C(W).
+
+    The same Fermi-theory shape as :func:`allowed_shape`, written for the charged lepton
+    (Hayen et al., RMP 90, 015008 (2018), eq. for dN/dW), with an optional shape factor C(W)
+    for forbidden transitions (C = 1: allowed). The sign of η in F₀ follows ``positron``
+    (attractive Coulomb field for β⁻, repulsive for β⁺); Z is the daughter's charge.
+
+    Parameters
+    ----------
+    t : numpy.ndarray
+        Electron (positron) kinetic energies in MeV, any shape.
+    endpoint : float
+        Branch endpoint kinetic energy in MeV, > 0.
+    z_daughter, a_daughter : int
+        Charge and mass number of the daughter nucleus.
+    positron : bool, optional
+        True for β⁺.
+    shape_factor : callable, optional
+        ``C(W, W0)`` with W, W0 in units of m_e c² (dimensionless, ≥ 0).
+
+    Returns
+    -------
+    numpy.ndarray
+        Spectrum in arbitrary units per MeV, same shape as ``t``; 0 outside ``(0, endpoint)``.
+    """
+    if not endpoint > 0.0:
+        raise ConfigError(f"endpoint must be > 0 MeV, got {endpoint!r}")
+    t = np.asarray(t, dtype=np.float64)
+    inside = (t > 0.0) & (t < endpoint)
+    w = np.where(inside, 1.0 + t / ELECTRON_MASS, 2.0)
+    w0 = 1.0 + endpoint / ELECTRON_MASS
+    p = np.sqrt(w * w - 1.0)
+    f = fermi_function(z_daughter, w, nuclear_radius_fm(a_daughter), positron=positron)
+    c = 1.0 if shape_factor is None else shape_factor(w, w0)
+    return np.where(inside, p * w * (w0 - w) ** 2 * f * c, 0.0)
 
 
 def q_beta_plus(parent: str, daughter: str) -> float:

@@ -49,7 +49,7 @@ from generator.response import ResponseStage
 import sys
 cfg = load_config(sys.argv[1] or None)
 plan = build_plan(cfg)
-ev = generate_chunk(plan, np.random.default_rng(1), 1 << 18, 1.0)
+ev = generate_chunk(plan, np.random.default_rng(1), 1 << 18, 1.0, np.random.default_rng(2))
 st = ResponseStage(plan.response, lambda t: plan.exposure.sun(t)[0])
 best = 1e9
 for k in range(5):
