@@ -33,7 +33,8 @@ _RECO = ("reco_energy", "n_pe", "reco_cos_sun")
 _PROVENANCE_KEYS = ("tool_version", "layout_version", "created_utc", "config_source",
                     "seed_entropy", "chunk_size", "count_mode", "stages_present",
                     "stages_absent", "response_variant", "n_generated", "n_triggered",
-                    "trigger_efficiency", "expected_events_triggered")
+                    "trigger_efficiency", "expected_events_triggered",
+                    "expected_events_signal", "expected_events_backgrounds")
 
 #: Compression filters and whether reading needs a plugin (the ``hdf5plugin`` package).
 _FILTER_NEEDS = {"gzip": "none (any HDF5 reader)", "deflate": "none (any HDF5 reader)",
@@ -108,6 +109,7 @@ def describe(path: str | Path, chunk: int = 1 << 20) -> dict[str, Any]:
         units = {k: ev.units(k) for k in ranged}
         intervals = ev.table("exposure/intervals")
         sources = ev.table("sources") if "sources" in ev._f else {}
+        backgrounds = ev.table("backgrounds") if "backgrounds" in ev._f else {}
         compression = str(ev.events.attrs.get("compression", attrs.get("compression", "?")))
         recorded = ev.filter_info           # what the file itself says it needs
     expected = {}
@@ -117,6 +119,19 @@ def describe(path: str | Path, chunk: int = 1 << 20) -> dict[str, Any]:
             label = name.decode() if isinstance(name, bytes) else str(name)
             expected[label] = {"code": int(code), "expected_events": float(exp),
                                "generated": by_origin.get(int(code), 0)}
+    bkg = {}
+    for i, (name, code, exp) in enumerate(zip(backgrounds.get("name", []),
+                                             backgrounds.get("code", []),
+                                             backgrounds.get("expected_events", []),
+                                             strict=True)):
+        label = name.decode() if isinstance(name, bytes) else str(name)
+        unit = backgrounds["rate_unit"][i]
+        bkg[label] = {"code": int(code), "expected_events": float(exp),
+                      "generated": by_origin.get(int(code), 0),
+                      "rate": _q(float(backgrounds["rate"][i]),
+                                 unit.decode() if isinstance(unit, bytes) else str(unit))}
+    expected.update({k: {kk: v[kk] for kk in ("code", "expected_events", "generated")}
+                     for k, v in bkg.items()})
     live = float(attrs.get("live_seconds", 0.0))
     out: dict[str, Any] = {
         "schema": SUMMARY_SCHEMA,
@@ -131,6 +146,7 @@ def describe(path: str | Path, chunk: int = 1 << 20) -> dict[str, Any]:
         "by_flavour": {_FLAVOUR.get(c, str(c)): {"pdg": c, "events": k}
                        for c, k in sorted(by_flavour.items(), key=lambda x: abs(x[0]))},
         "sources": expected,
+        "backgrounds": bkg or None,
         "night_fraction": night / n if n else None,
         "triggered": ({"events": trig, "fraction": trig / n if n else None}
                       if has_trigger else None),
@@ -190,6 +206,12 @@ def summarise(path: Path, chunk: int = 1 << 20) -> str:
         exp = d["sources"].get(name, {}).get("expected_events")
         e_txt = f"{exp:12.5g}" if exp is not None else " " * 12
         lines.append(f"  {name:>10s} ({v['code']:3d}) {v['events']:10d} {e_txt}")
+    if d.get("backgrounds"):
+        b = d["backgrounds"]
+        lines.append(f"backgrounds: {len(b)} isotopes (codes >= 100), "
+                     f"{_g(sum(v['expected_events'] for v in b.values()), 6)} expected decays; "
+                     "rates: " + ", ".join(f"{k} {_g(v['rate']['value'])} {v['rate']['unit']}"
+                                           for k, v in b.items()))
     lines.append("by flavour at detection:")
     for name, v in d["by_flavour"].items():
         lines.append(f"  {name:>11s} ({v['pdg']:+d}): {v['events']}")

@@ -271,3 +271,31 @@ def test_cli_bad_background_exits_2_and_writes_nothing(tmp_path: Path):
     assert r.returncode == 2, r.stderr
     assert "backgrounds.vessel_radius_m" in r.stderr and "outside the vessel" in r.stderr
     assert not (tmp_path / "out.h5").exists()
+
+
+def test_cli_generate_and_inspect_backgrounds(tmp_path: Path):
+    """From the CLI: a file with backgrounds, the /backgrounds table and inspect's counts."""
+    import json
+    import subprocess
+
+    import h5py
+
+    (tmp_path / "c.toml").write_text(
+        '[exposure]\nstart_utc = "2031-01-01T00:00:00Z"\nstop_utc = "2031-01-02T00:00:00Z"\n'
+        '[backgrounds.210Po]\nrate = 0.05\nunit = "cpd/100t"\n', "utf-8")
+    run = [sys.executable, "-m", "generator"]
+    r = subprocess.run([*run, "generate", "c.toml", "-o", "b.h5", "--events", "2000",
+                        "--seed", "3", "--quiet"], cwd=tmp_path, capture_output=True, text=True,
+                       timeout=600)
+    assert r.returncode == 0, r.stderr
+    with h5py.File(tmp_path / "b.h5") as f:
+        assert f["backgrounds/code"][:].tolist() == [104]
+        assert f["events/particle"].attrs["units"] == ""
+        assert f["events/gamma_energy"].attrs["units"] == "MeV"
+        assert "radioactive backgrounds" in f.attrs["stages_present"]
+    r = subprocess.run([*run, "inspect", "b.h5", "--json"], cwd=tmp_path, capture_output=True,
+                       text=True, timeout=300)
+    assert r.returncode == 0, r.stderr
+    d = json.loads(r.stdout)
+    assert d["backgrounds"]["210Po"]["rate"] == {"value": 0.05, "unit": "cpd/100t"}
+    assert d["by_origin"]["210Po"]["code"] == 104
