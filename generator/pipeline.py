@@ -52,6 +52,7 @@ from .backgrounds import background_seed
 from .config import MAX_EVENTS, Config, to_toml
 from .constants import CODATA_EDITION_NOTE, SECONDS_PER_DAY
 from .errors import ConfigError, InputError
+from .expected import quadrature_weights, zenith_flavour_table
 from .exposure import Exposure, load_run_list, parse_utc
 from .geometry import FiducialVolume, make_fiducial
 from .io.preflight import check_target
@@ -96,6 +97,10 @@ class SourcePlan:
     lines: tuple[tuple[float, float], ...] = ()
     envelope: Any = None              # Envelope: bound on Σ_α P_α σ_α over zenith angles
     efficiency: float = 1.0           # expected acceptance of the rejection step
+    quad_energy: Any = None           # MeV, E-quadrature nodes (grid above E_min(T_th), lines)
+    quad_weights: Any = None          # their weights (generator.expected.quadrature_weights)
+    zenith_flavour: Any = None        # events per (cos-zenith bin, flavour e/μ/τ), sums to
+    #                                   expected_events (generator.expected)
 
 
 @dataclass
@@ -314,22 +319,18 @@ def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, 
     line_b = np.array([ln[1] for ln in spec.lines])
     all_e = np.concatenate([e_grid, line_e])
     sig = _sigma_matrix(recoil, all_e, pdgs)
-    # exposure-averaged Σ_α P_α σ_α (zenith bins weighted by live time × (1 AU/r)²)
-    avg = np.zeros(all_e.size)
-    for c, w in zip(centres, wz, strict=True):
-        if w > 0.0:
-            avg += w * _weighted_sigma(flavour, region, all_e, c, sig)
-    avg /= w_total
+    # expected events per zenith bin and flavour: the shared code path of generator.expected
+    qw = quadrature_weights(e_grid, pdf, line_b, spec.continuous_fraction > 0)
+    table = zenith_flavour_table(flavour, region, all_e, qw, sig[:, None, :], centres,
+                                 wz)[:, 0, :]
     # envelope over all zenith angles, for the rejection step
     env = np.zeros(all_e.size)
     for c in _zenith_nodes(flavour):
         env = np.maximum(env, _weighted_sigma(flavour, region, all_e, c, sig))
     env *= ENVELOPE_MARGIN
-    n_grid = e_grid.size
-    cont = np.trapezoid(pdf * avg[:n_grid], e_grid) if spec.continuous_fraction > 0 else 0.0
-    line_term = float(np.sum(line_b * avg[n_grid:])) if line_e.size else 0.0
-    mean_sigma = float(cont + line_term)
-    expected = n_e * phi * w_total * mean_sigma
+    mean_sigma = float(table.sum() / w_total)
+    counts = n_e * phi * table
+    expected = float(counts.sum())
     lo, hi = float(all_e.min()), float(all_e.max())
     grid_u = np.linspace(lo, hi, ENVELOPE_POINTS)
     order = np.argsort(all_e)
@@ -351,7 +352,7 @@ def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, 
                                      line_weights=tuple(line_w[keep_l]))
         efficiency = min(1.0, mean_sigma / proposal.total)
     return SourcePlan(name, code, region, phi, spec, proposal, float(expected), mean_sigma,
-                      tuple(spec.lines), envelope, efficiency)
+                      tuple(spec.lines), envelope, efficiency, all_e, qw, counts)
 
 
 def chunk_seed(entropy: int, k: int) -> np.random.SeedSequence:
