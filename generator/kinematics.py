@@ -21,6 +21,8 @@ __all__ = [
     "cos_theta_electron",
     "orthonormal_basis",
     "scatter",
+    "final_state",
+    "on_cone_direction",
 ]
 
 #: Relative tolerance used to accept recoil energies marginally above T_max (rounding).
@@ -182,11 +184,77 @@ def scatter(
         + (sin_t * np.cos(phi))[:, None] * u
         + (sin_t * np.sin(phi))[:, None] * v
     )
+    nu_out, electron = final_state(e, tt, n, electron_dir, p_e)
+    return electron_dir, nu_out, electron
+
+
+def final_state(energy: np.ndarray, t: np.ndarray, nu_dir: np.ndarray,
+                electron_dir: np.ndarray, p_e: np.ndarray | None = None
+                ) -> tuple[np.ndarray, np.ndarray]:
+    """Outgoing 4-momenta of ν e⁻ → ν e⁻ from E, T and the two directions.
+
+    The electron has E_e = T + m and momentum p_e ê with p_e = √(T(T + 2m)); the outgoing
+    neutrino takes E' = E − T and p⃗' = E n̂ − p⃗_e (energy–momentum conservation with the
+    electron at rest, PDG Review "Kinematics", two-body scattering). Both are on shell when ê
+    lies on the kinematic cone cos θ = :func:`cos_theta_electron` about n̂.
+
+    Parameters
+    ----------
+    energy, t : numpy.ndarray
+        Neutrino energies E and electron kinetic energies T in MeV, shape (k,), float64.
+    nu_dir, electron_dir : numpy.ndarray
+        Unit vectors n̂ (incoming neutrino) and ê (electron), shape (k, 3), float64.
+    p_e : numpy.ndarray, optional
+        Electron momenta in MeV if already computed, shape (k,).
+
+    Returns
+    -------
+    nu_out, electron : numpy.ndarray
+        4-momenta [E, px, py, pz] in MeV, each shape (k, 4).
+    """
+    k = energy.shape[0]
+    if p_e is None:
+        p_e = np.sqrt(t * (t + 2.0 * ELECTRON_MASS))
     p_vec = p_e[:, None] * electron_dir
     electron = np.empty((k, 4))
-    electron[:, 0] = tt + m
+    electron[:, 0] = t + ELECTRON_MASS
     electron[:, 1:] = p_vec
     nu_out = np.empty((k, 4))
-    nu_out[:, 0] = e - tt
-    nu_out[:, 1:] = e[:, None] * n - p_vec
-    return electron_dir, nu_out, electron
+    nu_out[:, 0] = energy - t
+    nu_out[:, 1:] = energy[:, None] * nu_dir - p_vec
+    return nu_out, electron
+
+
+def on_cone_direction(energy: np.ndarray, t: np.ndarray, nu_dir: np.ndarray,
+                      electron_dir: np.ndarray) -> np.ndarray:
+    """The unit vector nearest to ``electron_dir`` on the kinematic cone about ``nu_dir``.
+
+    Keeps the azimuth of ``electron_dir`` around n̂ and sets its polar angle to the exact
+    two-body value of :func:`cos_theta_electron` (Bahcall 1989, ch. 8). Used to restore exact
+    kinematics from single-precision stored directions (the change is of the order of the
+    float32 rounding, ~1e-7 rad). Where ``electron_dir`` is (anti)parallel to n̂ the azimuth is
+    taken along the first vector of :func:`orthonormal_basis`.
+
+    Parameters
+    ----------
+    energy, t : numpy.ndarray
+        Neutrino energies E and electron kinetic energies T in MeV, shape (k,), T ≤ T_max(E).
+    nu_dir, electron_dir : numpy.ndarray
+        Unit vectors, shape (k, 3), float64.
+
+    Returns
+    -------
+    numpy.ndarray
+        Unit vectors on the cone, shape (k, 3).
+    """
+    cos_t = cos_theta_electron(energy, t)
+    sin_t = np.sqrt(np.maximum(0.0, 1.0 - cos_t * cos_t))
+    along = np.einsum("ij,ij->i", electron_dir, nu_dir)
+    perp = electron_dir - along[:, None] * nu_dir
+    norm = np.sqrt(np.einsum("ij,ij->i", perp, perp))
+    small = norm < 1e-12
+    if np.any(small):
+        u, _ = orthonormal_basis(nu_dir[small])
+        perp[small] = u
+        norm[small] = 1.0
+    return cos_t[:, None] * nu_dir + (sin_t / norm)[:, None] * perp
