@@ -1,11 +1,12 @@
 """ROOT export: one flat TTree ``events`` written with uproot (extra ``root``).
 
-One branch per event field, in file order; vector fields (directions, vertices) become three
-branches ``<name>_x``, ``<name>_y``, ``<name>_z``. Branch types are the HDF5 dtypes (float32,
-float64, int16, int32, uint8). Each branch title is ``<description> [<unit>]`` from the
-field's attributes (the unit is empty for dimensionless fields). The tree title names the tool
-and the unit convention. The root attributes of the event file (configuration, seed, exposure,
-origin names …) are stored as strings (``TObjString``) in the directory ``provenance``.
+One branch per event field (in the file's alphabetical order); vector fields (directions,
+vertices) become three branches ``<name>_x``, ``<name>_y``, ``<name>_z``. Branch types are
+the HDF5 dtypes (float32, float64, int16, int32, uint8). Each branch title is
+``<description> [<unit>]`` from the field's attributes (the unit is empty for dimensionless
+fields). The tree title names the tool and the unit convention. The root attributes of the
+event file (configuration, seed, exposure, origin names …) are stored as strings
+(``TObjString``) in the directory ``provenance``.
 """
 
 from __future__ import annotations
