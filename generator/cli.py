@@ -93,6 +93,8 @@ def build_parser() -> argparse.ArgumentParser:
                                    "provenance of an event file.")
     i.add_argument("file", help="HDF5 event file")
     i.add_argument("--json", action="store_true", help="machine-readable summary (JSON)")
+    i.add_argument("--plots", metavar="DIR", help="also write first-look PNG figures into DIR "
+                                                 "(needs the extra 'plots')")
     for name in COMMAND_MODULES:
         importlib.import_module(f"{__package__}.commands.{name}").add_parser(sub)
     return p
@@ -190,7 +192,14 @@ def _is_hdf5(path: str) -> bool:
 def _cmd_inspect(args: argparse.Namespace) -> int:
     from .summary import summarise, summary_json
 
+    written = []
+    if args.plots:
+        from .plots import render_plots
+
+        written = render_plots(args.file, args.plots)
     sys.stdout.write(summary_json(args.file) if args.json else summarise(Path(args.file)))
+    if written:
+        print(f"plots: {', '.join(p.name for p in written)} in {args.plots}", file=sys.stderr)
     return 0
 
 

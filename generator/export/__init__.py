@@ -115,7 +115,7 @@ def export_file(src: str | os.PathLike[str], out: str | os.PathLike[str], fmt: s
         check_target(out, force)
         mod = importlib.import_module(f"{__name__}.{module}")
         tmp = temp_path_for(out)
-        args = (str(tmp), ev.attrs, ev.origin_names(), Path(src).name)
+        args = (str(tmp), ev.attrs, ev.origin_names, Path(src).name)
         writer = (mod.RootWriter(*args, _field_info(ev)) if fmt == "root"
                   else mod.HepMC3Writer(*args))
         try:
