@@ -80,10 +80,12 @@ def mixed_file(event_file: Path, tmp_path_factory) -> Path:
         particle[bkg] = np.array([11, -11, 1000020040, 22])[np.arange(bkg.size) % 4]
         gamma = np.zeros(n, dtype=np.float32)
         gamma[bkg] = np.where(particle[bkg] == -11, 1.022, np.where(particle[bkg] == 22, 0.6, 0))
-        ev.create_dataset("particle", data=particle)
-        ev.create_dataset("gamma_energy", data=gamma)
-        ev["particle"].attrs.update(units="", description="PDG code of the primary particle")
-        ev["gamma_energy"].attrs.update(units="MeV", description="energy of accompanying γ rays")
+        for name, data, units in (("particle", particle, ""), ("gamma_energy", gamma, "MeV")):
+            if name in ev:
+                ev[name][:] = data.astype(ev[name].dtype)
+            else:
+                ev.create_dataset(name, data=data)
+                ev[name].attrs.update(units=units, description=f"{name} (test stand-in)")
     return out
 
 
