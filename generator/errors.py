@@ -8,7 +8,7 @@ callers can catch them; the CLI maps :class:`InputError` to exit status 2.
 from __future__ import annotations
 
 __all__ = ["SunrecoilError", "InputError", "ConfigError", "DataFileError", "OutputExistsError",
-           "WriteError"]
+           "WriteError", "SamplingError"]
 
 
 class SunrecoilError(Exception):
@@ -33,3 +33,7 @@ class OutputExistsError(InputError):
 
 class WriteError(SunrecoilError):
     """Writing the output failed (disk full, I/O error, read-only file system). Exit status 1."""
+
+
+class SamplingError(SunrecoilError, RuntimeError):
+    """An internal consistency check of the event sampler failed; the run stops. CLI exit 1."""

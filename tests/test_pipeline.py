@@ -62,13 +62,9 @@ def _violations(mask: np.ndarray) -> list[int]:
     return np.flatnonzero(~mask)[:20].tolist()
 
 
-def test_envelope_bounds_acceptance(small_config, caplog):
-    """The rejection envelope bounds Σ_α P_α σ_α everywhere (no 'acceptance above 1' log)."""
-    import logging
-
-    with caplog.at_level(logging.WARNING, logger="generator.pipeline"):
-        memory_run(small_config, 20000, seed=5)
-    assert not [r for r in caplog.records if "acceptance above 1" in r.getMessage()]
+def test_envelope_bounds_acceptance(small_config):
+    """A whole sample runs without the acceptance guard firing (SamplingError otherwise)."""
+    memory_run(small_config, 20000, seed=5)
 
 
 def test_physics_identities_on_every_event(sample, small_config):
