@@ -14,11 +14,9 @@ and what is allowed.
 
 from __future__ import annotations
 
-import difflib
-import math
 import os
 import tomllib
-from dataclasses import dataclass, fields
+from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 from typing import Any
@@ -164,104 +162,15 @@ class Config:
 
 
 # --------------------------------------------------------------------------- value checks
-_MISSING = object()
-
-
-def _fmt(value: Any) -> str:
-    return clip(value)
-
-
-def _suggest(word: str, allowed: Any) -> str:
-    """' (did you mean X?)' for the closest allowed name, or ''."""
-    close = difflib.get_close_matches(str(word), [str(a) for a in allowed], n=1, cutoff=0.6)
-    return f" (did you mean {close[0]!r}?)" if close else ""
-
-
-class _Section:
-    """Reads typed values from one TOML table and reports unknown keys."""
-
-    def __init__(self, table: Any, path: str):
-        if not isinstance(table, dict):
-            raise ConfigError(f"{path}: expected a table, got {_fmt(table)}")
-        self.table = table
-        self.path = path
-        self.used: set[str] = set()
-
-    def _get(self, key: str, default: Any) -> Any:
-        self.used.add(key)
-        if key in self.table:
-            return self.table[key]
-        if default is _MISSING:
-            raise ConfigError(f"{self.path}.{key}: required key is missing")
-        return default
-
-    def string(self, key: str, default: Any = _MISSING, choices: tuple[str, ...] | None = None,
-               optional: bool = False) -> str | None:
-        v = self._get(key, None if optional and default is _MISSING else default)
-        if v is None and optional:
-            return None
-        if not isinstance(v, str):
-            raise ConfigError(f"{self.path}.{key}: expected a string, got {_fmt(v)}")
-        if choices is not None and v not in choices:
-            raise ConfigError(f"{self.path}.{key}: {_fmt(v)} is not allowed; use one of {choices}")
-        if choices is None and not v.strip():
-            raise ConfigError(f"{self.path}.{key}: must not be empty")
-        return v
-
-    def boolean(self, key: str, default: Any = _MISSING) -> bool:
-        v = self._get(key, default)
-        if not isinstance(v, bool):
-            raise ConfigError(f"{self.path}.{key}: expected true or false, got {_fmt(v)}")
-        return v
-
-    def number(self, key: str, default: Any = _MISSING, *, lo: float | None = None,
-               hi: float | None = None, lo_open: bool = False, optional: bool = False
-               ) -> float | None:
-        v = self._get(key, None if optional and default is _MISSING else default)
-        if v is None and optional:
-            return None
-        return _check_number(f"{self.path}.{key}", v, lo, hi, lo_open)
-
-    def integer(self, key: str, default: Any = _MISSING, *, lo: int | None = None,
-                hi: int | None = None, optional: bool = False) -> int | None:
-        v = self._get(key, None if optional and default is _MISSING else default)
-        if v is None and optional:
-            return None
-        if isinstance(v, bool) or not isinstance(v, int):
-            raise ConfigError(f"{self.path}.{key}: expected an integer, got {_fmt(v)}")
-        if lo is not None and v < lo:
-            raise ConfigError(f"{self.path}.{key}: {v} is below the minimum {lo}")
-        if hi is not None and v > hi:
-            raise ConfigError(f"{self.path}.{key}: {v} is above the maximum {hi}")
-        return v
-
-    def finish(self) -> None:
-        unknown = sorted(set(self.table) - self.used)
-        if unknown:
-            hint = _suggest(unknown[0], self.used) if len(unknown) == 1 else ""
-            raise ConfigError(
-                f"{self.path}: unknown key(s) {clip(unknown)}{hint}; allowed keys: "
-                f"{sorted(self.used)}"
-            )
-
-
-def _check_number(path: str, v: Any, lo: float | None, hi: float | None,
-                  lo_open: bool = False) -> float:
-    if isinstance(v, bool) or not isinstance(v, int | float):
-        raise ConfigError(f"{path}: expected a number, got {_fmt(v)}")
-    try:
-        v = float(v)
-    except OverflowError:
-        raise ConfigError(f"{path}: {_fmt(v)} is out of range (too large for a number)"
-                          ) from None
-    if not math.isfinite(v):
-        raise ConfigError(f"{path}: {v} is not finite; a finite number is required")
-    if lo is not None and (v < lo or (lo_open and v == lo)):
-        rel = ">" if lo_open else "≥"
-        raise ConfigError(f"{path}: {v} is out of range; must be {rel} {lo}")
-    if hi is not None and v > hi:
-        raise ConfigError(f"{path}: {v} is out of range; must be ≤ {hi}")
-    return v
+# (typed readers of one TOML table, in generator/config_checks.py; the section parsers of the
+# response and background stages import them from here)
+from .config_checks import (  # noqa: E402
+    _MISSING,  # noqa: F401
+    _check_number,
+    _fmt,
+    _Section,
+    _suggest,
+)
 
 
 # --------------------------------------------------------------------------- sections
@@ -617,75 +526,5 @@ def check_data_files(cfg: Config) -> None:
 
 
 # --------------------------------------------------------------------------- TOML output
-def _toml_value(v: Any) -> str:
-    if isinstance(v, bool):
-        return "true" if v else "false"
-    if isinstance(v, int):
-        return str(v)
-    if isinstance(v, float):
-        return repr(v)
-    if isinstance(v, str):
-        return _toml_string(v)
-    if isinstance(v, tuple | list):
-        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
-    raise TypeError(f"cannot write {v!r} as TOML")
-
-
-_TOML_ESCAPES = {"\\": "\\\\", '"': '\\"', "\b": "\\b", "\t": "\\t", "\n": "\\n",
-                 "\f": "\\f", "\r": "\\r"}
-
-
-def _toml_string(v: str) -> str:
-    """A TOML basic string: backslash, quote and every control character escaped (TOML 1.0)."""
-    out = []
-    for ch in v:
-        if ch in _TOML_ESCAPES:
-            out.append(_TOML_ESCAPES[ch])
-        elif ord(ch) < 0x20 or ord(ch) == 0x7F:
-            out.append(f"\\u{ord(ch):04X}")
-        else:
-            out.append(ch)
-    return '"' + "".join(out) + '"'
-
-
-def _key(k: str) -> str:
-    """A bare TOML key when it only has A–Z, a–z, 0–9, '_' and '-'; else a quoted key."""
-    bare = k and all(c.isascii() and (c.isalnum() or c in "_-") for c in k)
-    return k if bare else _toml_string(k)
-
-
-def to_toml(cfg: Config) -> str:
-    """Write the effective configuration as TOML text (round-trips through :func:`parse_config`)."""
-    lines: list[str] = []
-    for section in fields(cfg):
-        if section.name in ("source_file", "response", "media", "backgrounds"):
-            continue
-        obj = getattr(cfg, section.name)
-        lines.append(f"[{section.name}]")
-        tables: list[tuple[str, tuple]] = []
-        arrays: list[tuple[str, tuple]] = []
-        for f in fields(obj):
-            v = getattr(obj, f.name)
-            if v is None:
-                continue
-            if f.name in ("scale", "flux_override"):
-                tables.append((f.name, v))
-            elif f.name == "custom":
-                arrays.append((f.name, v))
-            else:
-                lines.append(f"{f.name} = {_toml_value(v)}")
-        for name, pairs in tables:
-            lines.append(f"\n[{section.name}.{name}]")
-            for k, val in pairs:
-                lines.append(f"{_key(k)} = {_toml_value(val)}")
-        for name, items in arrays:
-            for item in items:
-                lines.append(f"\n[[{section.name}.{name}]]")
-                for f in fields(item):
-                    lines.append(f"{f.name} = {_toml_value(getattr(item, f.name))}")
-        lines.append("")
-    from .backgrounds.config import backgrounds_toml_lines
-    from .response.config import media_toml_lines, response_toml_lines
-
-    return "\n".join(lines + response_toml_lines(cfg.response) + media_toml_lines(cfg.media)
-                     + backgrounds_toml_lines(cfg.backgrounds))
+# (in generator/config_toml.py; re-exported here, the names other modules import from config)
+from .config_toml import _key, _toml_string, _toml_value, to_toml  # noqa: E402,F401
