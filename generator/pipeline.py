@@ -38,7 +38,6 @@ expected events (signal + backgrounds) per generated event.
 
 from __future__ import annotations
 
-import datetime as _dt
 import logging
 import secrets
 from collections.abc import Callable
@@ -48,26 +47,28 @@ from typing import Any
 
 import numpy as np
 
-from . import __version__, kinematics, spectra
+from . import kinematics, spectra
 from .backgrounds import background_seed
-from .config import MAX_EVENTS, Config, to_toml
-from .constants import CODATA_EDITION_NOTE, SECONDS_PER_DAY
+from .chunks import FLAVOUR_PDG, chunk_seed, generate_chunk
+from .chunks import sigma_matrix as _sigma_matrix
+from .config import MAX_EVENTS, Config
+from .constants import SECONDS_PER_DAY
 from .envelope import ENVELOPE_POINTS, Envelope, build_envelope, cell_bounds, source_grid
-from .errors import ConfigError, InputError, SamplingError
+from .errors import ConfigError, InputError
 from .expected import quadrature_weights, zenith_flavour_table
 from .exposure import Exposure, load_run_list, parse_utc
 from .geometry import FiducialVolume, make_fiducial
 from .io.preflight import check_target
-from .io.schema import FRAME_CONVENTION, LAYOUT_VERSION, empty_chunk
 from .io.writer import HDF5Sink, MemorySink, chunk_rows_for
 from .media import Medium, get_medium, target_electrons
 from .oscillation import PRESETS, FlavourModel, OscillationParams
 from .production import Shard, resumed_seed, run_chunks, start_output, work_range
+from .provenance import ABSENT_STAGES, provenance, stage_names, write_tables
 from .recoil import RecoilSampler
 from .xsec import XsecModel
 
 __all__ = ["Envelope", "RunPlan", "SourcePlan", "build_plan", "generate", "generate_chunk",
-           "chunk_seed", "RunSummary", "COUNT_SPAWN_KEY"]
+           "chunk_seed", "RunSummary", "COUNT_SPAWN_KEY", "provenance", "memory_run"]
 
 log = logging.getLogger(__name__)
 
@@ -77,11 +78,9 @@ COUNT_SPAWN_KEY = (1 << 31,)
 #: Zenith-angle bins used for the deterministic exposure average of the flavour probabilities.
 N_ZENITH_BINS = 200
 
-#: PDG codes of the three neutrino flavours, in the column order of the probability tables.
-FLAVOUR_PDG = np.array([12, 14, 16], dtype=np.int16)
-
-#: Optional stages, absent from the event files unless switched on.
-ABSENT_STAGES = ("detector response (reconstructed fields)", "radioactive backgrounds")
+#: Kept importable from here (moved with the chunk code and the provenance attributes).
+_REEXPORTED = (FLAVOUR_PDG, ABSENT_STAGES)
+_stage_names, _write_tables = stage_names, write_tables
 
 
 @dataclass
@@ -250,15 +249,6 @@ def _no_events_error(plans: list[SourcePlan], n_e: float, exposure: Exposure,
                        f"{threshold} MeV; lower the threshold or include other sources")
 
 
-def _sigma_matrix(recoil: RecoilSampler, energy: np.ndarray, pdgs: tuple[int, ...]
-                  ) -> np.ndarray:
-    """σ_α(E) above threshold, shape (n, 3) in the e, μ, τ column order (cm²)."""
-    out = np.zeros((energy.size, 3))
-    for j, pdg in enumerate(pdgs):
-        out[:, j] = recoil.sigma(energy, np.full(energy.size, pdg))
-    return out
-
-
 def _energy_range(spec: Any, e_lo: float) -> tuple[float, float]:
     """Energy range (MeV) of a source's grid: threshold (or table start) to the top."""
     hi = max([ln[0] for ln in spec.lines], default=e_lo)
@@ -318,92 +308,6 @@ def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, 
                       tuple(spec.lines), envelope, efficiency, all_e, qw, counts)
 
 
-def chunk_seed(entropy: int, k: int) -> np.random.SeedSequence:
-    """The seed sequence of chunk ``k`` of a run with root ``entropy``."""
-    return np.random.SeedSequence(entropy, spawn_key=(k,))
-
-
-def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: float,
-                   bg_rng: np.random.Generator | None = None) -> dict[str, np.ndarray]:
-    """Draw ``n`` truth-level events (a pure function of the plan and the random streams).
-
-    ``bg_rng`` (the chunk's background stream) is required when the plan has backgrounds.
-
-    Returns
-    -------
-    dict of str to ndarray
-        One array per field of :data:`generator.io.schema.EVENT_FIELDS`.
-    """
-    out = empty_chunk(n)
-    src = np.searchsorted(plan.source_cdf, rng.random(n), side="right")
-    src = np.minimum(src, plan.source_cdf.size - 1)
-    n_src = len(plan.sources)
-    sig: Any = slice(None)
-    if plan.backgrounds is not None:
-        if bg_rng is None:
-            raise ValueError("generate_chunk: a plan with backgrounds needs bg_rng")
-        sig = np.flatnonzero(src < n_src)
-        bkg = np.flatnonzero(src >= n_src)
-        plan.backgrounds.fill(out, bkg, src[bkg] - n_src, bg_rng, plan.fiducial,
-                              plan.exposure.sun, weight)
-        src, n = src[sig], sig.size
-    energy = np.empty(n)
-    times = np.empty(n)
-    flav = np.empty(n, dtype=np.intp)
-    nu_dir = np.empty((n, 3))
-    cosz = np.empty(n)
-    pdg_arr = np.array(plan.pdgs)
-    for s, sp in enumerate(plan.sources):
-        pending = np.flatnonzero(src == s)
-        while pending.size:
-            # draw enough candidates for all pending events at the expected acceptance
-            m = int(pending.size / max(sp.efficiency, 0.05) * 1.05) + 16
-            e = sp.proposal.sample(rng, m)
-            t = plan.exposure.sample_times(rng, m)
-            d, cz, _ = plan.exposure.sun(t)
-            p = plan.flavour.probabilities(sp.production_region, e, cz)
-            w = p * _sigma_matrix(plan.recoil, e, plan.pdgs)
-            acc = np.cumsum(w, axis=1) / sp.envelope(e)[:, None]
-            if np.any(acc[:, -1] > 1.0):       # impossible by construction (envelope.py)
-                raise _acceptance_error(sp, e, acc[:, -1])
-            v = rng.random(m)
-            choice = np.sum(v[:, None] >= acc, axis=1)
-            ok = np.flatnonzero(choice < len(plan.pdgs))[:pending.size]
-            idx = pending[:ok.size]
-            energy[idx] = e[ok]
-            times[idx] = t[ok]
-            flav[idx] = choice[ok]
-            nu_dir[idx] = d[ok]
-            cosz[idx] = cz[ok]
-            pending = pending[ok.size:]
-    pdg = FLAVOUR_PDG[flav] if len(plan.pdgs) == 3 else np.full(n, pdg_arr[0], np.int16)
-    t_e = plan.recoil.sample(rng, energy, pdg)
-    e_dir, _, _ = kinematics.scatter(rng, energy, t_e, nu_dir)
-    out["time_utc"][sig] = times
-    out["origin"][sig] = np.array([sp.code for sp in plan.sources], dtype=np.int16)[src]
-    out["nu_pdg"][sig] = pdg
-    out["nu_energy"][sig] = energy
-    out["nu_dir"][sig] = nu_dir
-    out["e_kinetic"][sig] = t_e
-    out["e_dir"][sig] = e_dir
-    out["vertex"][sig] = plan.fiducial.sample(rng, n)
-    out["cos_sun"][sig] = np.einsum("ij,ij->i", e_dir, nu_dir)
-    out["sun_cos_zenith"][sig] = cosz
-    out["is_night"][sig] = cosz < 0.0
-    out["weight"][sig] = weight
-    out["particle"][sig] = 11
-    out["gamma_energy"][sig] = 0.0
-    return out
-
-
-def _acceptance_error(sp: SourcePlan, energy: np.ndarray, acc: np.ndarray) -> SamplingError:
-    k = int(np.argmax(acc))
-    return SamplingError(
-        f"source {sp.name}: rejection envelope below the event density at E = "
-        f"{energy[k]:.9g} MeV (acceptance {acc[k]:.9g} > 1); no event was kept from a biased "
-        "draw. This is a bug of sunrecoil, please report it with the configuration")
-
-
 @dataclass
 class RunSummary:
     """What a run produced."""
@@ -432,96 +336,6 @@ def _event_count(plan: RunPlan, entropy: int, n_events: int | None) -> int:
         return int(round(plan.expected_total))
     rng = np.random.default_rng(np.random.SeedSequence(entropy, spawn_key=COUNT_SPAWN_KEY))
     return int(rng.poisson(plan.expected_total))
-
-
-def _stage_names(response_on: bool, backgrounds_on: bool = False) -> dict[str, str]:
-    """``stages_present``/``stages_absent`` attributes."""
-    present = "sources, cross sections, ephemeris, solar MSW, Earth regeneration"
-    on = {ABSENT_STAGES[0]: response_on, ABSENT_STAGES[1]: backgrounds_on}
-    absent = [s for s in ABSENT_STAGES if not on[s]]
-    return {"stages_present": present + (", radioactive backgrounds" if backgrounds_on else "")
-            + (", detector response" if response_on else ""),
-            "stages_absent": "; ".join(absent) or "none"}
-
-
-def provenance(plan: RunPlan, entropy: int, n: int) -> dict[str, Any]:
-    """Root attributes of an event file."""
-    cfg = plan.config
-    return {
-        "tool": "sunrecoil",
-        "tool_version": __version__,
-        "layout_version": LAYOUT_VERSION,
-        "config_toml": to_toml(cfg),
-        "config_source": cfg.source_file or "embedded default",
-        "seed_entropy": str(entropy),
-        "seed_scheme": "chunk k draws from numpy SeedSequence(seed_entropy, spawn_key=(k,)); "
-                       "Poisson count from spawn_key=(2**31,)",
-        "chunk_size": cfg.run.chunk_size,
-        "created_utc": _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
-        "n_events": n,
-        "count_mode": cfg.run.count_mode,
-        "expected_events": plan.expected_total,
-        "weight_per_event": plan.expected_total / n if n else 0.0,
-        "expected_events_per_live_day": plan.expected_rate_per_day,
-        "live_seconds": plan.exposure.live_seconds,
-        "mean_inverse_r2": plan.exposure.mean_inverse_r2,
-        "target_electrons": plan.n_electrons,
-        "fiducial_mass_kg": plan.fiducial.volume_cm3 * plan.medium.density_g_cm3 / 1000.0,
-        "threshold_mev": cfg.interaction.threshold_mev,
-        "frame": FRAME_CONVENTION,
-        "units_convention": "MeV for energies and mm for lengths inside events; UTC seconds "
-                            "since the Unix epoch for event times; cm^2 and cm^-2 s^-1 for "
-                            "cross sections and fluxes",
-        **_stage_names(False, plan.backgrounds is not None),
-        **_background_attrs(plan),
-        "constants": CODATA_EDITION_NOTE,
-    }
-
-
-def _background_attrs(plan: RunPlan) -> dict[str, Any]:
-    """Normalisation split between signal and backgrounds (root attributes)."""
-    if plan.backgrounds is None:
-        return {}
-    bg = float(plan.backgrounds.expected.sum())
-    return {"expected_events_backgrounds": bg,
-            "expected_events_signal": plan.expected_total - bg,
-            "background_normalisation": "expected_events = signal + background expected events;"
-            " every event's weight = expected_events / n_events; origin codes >= 100 are "
-            "background isotopes (table /backgrounds)"}
-
-
-def _write_tables(sink: Any, plan: RunPlan) -> None:
-    names = np.array([sp.name for sp in plan.sources], dtype=object)
-    sink.write_table("sources/name", names, "", "source names (UTF-8)")
-    sink.write_table("sources/code", np.array([sp.code for sp in plan.sources], np.int16), "",
-                     "origin code of each source")
-    sink.write_table("sources/flux", np.array([sp.flux for sp in plan.sources]), "cm^-2 s^-1",
-                     "flux at 1 AU after scaling and overrides")
-    sink.write_table("sources/expected_events",
-                     np.array([sp.expected_events for sp in plan.sources]), "events",
-                     "expected events above threshold for the configured exposure")
-    sink.write_table("sources/mean_sigma", np.array([sp.mean_sigma for sp in plan.sources]),
-                     "cm^2", "exposure-, spectrum- and flavour-averaged cross section above "
-                     "threshold per incident neutrino")
-    sink.write_table("exposure/intervals", plan.exposure.intervals, "s",
-                     "live periods [start, stop], UTC seconds since the Unix epoch")
-    sink.write_table("exposure/zenith_edges", plan.zenith_edges, "", "cos-zenith bin edges")
-    sink.write_table("exposure/zenith_weights", plan.zenith_weights, "s",
-                     "live time weighted by (1 AU/r)^2 per cos-zenith bin")
-    for region in sorted({sp.production_region for sp in plan.sources}):
-        e, p = plan.flavour.day_table(region)
-        sink.write_table(f"flavour/day/{region}/energy", e, "MeV", "neutrino energy grid")
-        sink.write_table(f"flavour/day/{region}/probability", p, "",
-                         "daytime P(nu_e -> nu_e, nu_mu, nu_tau) at the detector")
-    night = plan.flavour.night_table()
-    if night:
-        sink.write_table("flavour/night/energy", night["energy"], "MeV", "energy grid")
-        sink.write_table("flavour/night/cos_zenith", night["cos_zenith"], "",
-                         "cos-zenith grid (night half)")
-        sink.write_table("flavour/night/p_earth", night["p_earth"], "",
-                         "P(nu_i -> nu_alpha) through the Earth, axes (E, cos_zenith, i, alpha)")
-    sink.set_attrs({k: (str(v) if not isinstance(v, int | float | str | bool) else v)
-                    for k, v in plan.flavour.describe().items()}, group="flavour")
 
 
 def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None = None,
@@ -610,14 +424,14 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         names = [sp.name for sp in plan.sources] + [p.iso.name for p in bgp]
         sink.set_field_attrs("origin", {"codes": np.array(codes, np.int16),
                                         "names": np.array(names, dtype=object)})
-        _write_tables(sink, plan)
+        write_tables(sink, plan)
         if plan.backgrounds is not None:
             plan.backgrounds.write_tables(sink)
         sink.set_attrs(attrs)
         if stage is not None:
             stage.write_tables(sink)
             sink.set_attrs({**stage.attrs(weight),
-                            **_stage_names(True, plan.backgrounds is not None)})
+                            **stage_names(True, plan.backgrounds is not None)})
         result = sink.commit()
     except BaseException:
         sink.abort()

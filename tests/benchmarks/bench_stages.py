@@ -33,8 +33,8 @@ STAGES: dict[str, tuple[tuple[str, str], ...]] = {
     "source + E proposal": (("spectra/sampling.py", "sample"),),
     "time proposal + Sun vectors": (("exposure.py", "sample_times"), ("exposure.py", "sun")),
     "flavour probabilities + acceptance": (("oscillation.py", "probabilities"),
-                                           ("pipeline.py", "_sigma_matrix"),
-                                           ("pipeline.py", "__call__")),
+                                           ("chunks.py", "sigma_matrix"),
+                                           ("envelope.py", "__call__")),
     "recoil sampling": (("recoil.py", "sample"),),
     "kinematics + vertex": (("kinematics.py", "scatter"), ("geometry.py", "sample")),
     "response": (("response/__init__.py", "process"),),
@@ -42,6 +42,10 @@ STAGES: dict[str, tuple[tuple[str, str], ...]] = {
                     ("backgrounds/__init__.py", "process")),
     "HDF5 encode/write": (("io/writer.py", "write_chunk"),),
 }
+
+
+#: Files of the pipeline itself (calls from them count for a stage).
+PIPELINE_FILES = ("generator/pipeline.py", "generator/chunks.py")
 
 
 def _with_all_stages(cfg):
@@ -84,7 +88,7 @@ def profile(path: str | None, n: int) -> tuple[float, dict[str, float]]:
                 total += ct
                 continue
             total += sum(edge[3] for c, edge in callers.items()
-                         if c[0].replace(os.sep, "/").endswith("generator/pipeline.py"))
+                         if c[0].replace(os.sep, "/").endswith(PIPELINE_FILES))
         out[stage] = total
     return loop, out
 
