@@ -374,8 +374,9 @@ class Exposure:
         """
         return self.table.lookup(t_unix)
 
-    def zenith_exposure(self, cos_zenith_edges: np.ndarray) -> np.ndarray:
-        """Flux-weighted live time per bin of solar cos-zenith.
+    def zenith_exposure(self, cos_zenith_edges: np.ndarray, weighted: bool = True
+                        ) -> np.ndarray:
+        """Flux-weighted (or plain) live time per bin of solar cos-zenith.
 
         E_j = ∫_live dt (1 AU / r(t))² [cos θ_z(t) in bin j], evaluated by the mid-point rule on
         sub-cells of at most ``step_s`` inside every live period, with the Sun from the table.
@@ -407,7 +408,8 @@ class Exposure:
         result = np.zeros(edges.size - 1)
         for starts, widths in _iter_split(self.intervals, self.table.step_s, 1 << 20):
             _, cos_zenith, distance = self.table.lookup(starts + 0.5 * widths)
-            counts, _ = np.histogram(cos_zenith, bins=edges, weights=widths / distance**2)
+            w = widths / distance**2 if weighted else widths
+            counts, _ = np.histogram(cos_zenith, bins=edges, weights=w)
             result += counts
         return result
 

@@ -32,7 +32,7 @@ __all__ = ["RATES_SCHEMA", "RATES_SCHEMA_VERSION", "Rates", "compute_rates", "wi
            "to_dict", "check_edges", "FLAVOUR_GROUPS", "RECO_T_POINTS"]
 
 RATES_SCHEMA = "sunrecoil.rates"
-RATES_SCHEMA_VERSION = 1
+RATES_SCHEMA_VERSION = 2   # 2: optional "backgrounds" block
 #: Arriving-flavour groups reported: columns of the (e, μ, τ) tables summed.
 FLAVOUR_GROUPS = {"nu_e": (0,), "nu_mu_tau": (1, 2)}
 #: Nodes of the true-energy grid on which the response matrix is tabulated.
@@ -103,6 +103,13 @@ class Rates:
     reco_edges: np.ndarray | None = None
     reco_counts: np.ndarray | None = None     # (n_src, n_z, n_reco, 3)
     plan: Any = field(default=None, repr=False)
+    # radioactive backgrounds (empty when [backgrounds] is off): axes isotope, zenith bin
+    # (plain live time, backgrounds being uniform in time), window
+    bg_names: list[str] = field(default_factory=list)
+    bg_codes: list[int] = field(default_factory=list)
+    bg_counts: np.ndarray | None = None         # (n_iso, n_z), all generated decays
+    bg_t_counts: np.ndarray | None = None       # (n_iso, n_z, n_t), deposited energy
+    bg_reco_counts: np.ndarray | None = None    # (n_iso, n_z, n_reco), triggered
 
     # ---------------------------------------------------------------- reductions
     def night_mask(self) -> np.ndarray:
@@ -135,6 +142,11 @@ class Rates:
     def total(self) -> float:
         """All sources and flavours above threshold (events)."""
         return float(self.counts.sum())
+
+    @property
+    def background_total(self) -> float:
+        """All generated background decays (events; 0 without backgrounds)."""
+        return 0.0 if self.bg_counts is None else float(self.bg_counts.sum())
 
 
 def _flux_rel(cfg: Config, name: str) -> float:
@@ -214,7 +226,31 @@ def compute_rates(cfg: Config, *, threshold: float | None = None, t_edges: Any =
         out.t_edges, out.t_counts = t_e, np.stack(tabs["t"])
     if r_e is not None:
         out.reco_edges, out.reco_counts = r_e, np.stack(tabs["reco"])
+    if plan.backgrounds is not None:
+        _add_backgrounds(out, plan, t_e, r_e)
     return out
+
+
+def _add_backgrounds(out: Rates, plan: Any, t_e: np.ndarray | None,
+                     r_e: np.ndarray | None) -> None:
+    """Background counts: rate × mass × live time, split by the plain live time per zenith bin.
+
+    Background decays are uniform in live time (:mod:`generator.backgrounds.stage`), so the
+    fraction in zenith bin z is the live time with cos θ_z in z over the total live time;
+    energy windows come from :func:`generator.backgrounds.expected.window_counts`.
+    """
+    from .backgrounds.expected import window_counts
+
+    bg = plan.backgrounds
+    live = plan.exposure.zenith_exposure(out.zenith_edges, weighted=False)
+    frac = live / live.sum() if live.sum() > 0 else live
+    out.bg_names = [p.iso.name for p in bg.isotopes]
+    out.bg_codes = [int(p.iso.code) for p in bg.isotopes]
+    out.bg_counts = bg.expected[:, None] * frac[None, :]
+    if t_e is not None:
+        out.bg_t_counts = window_counts(plan, t_e, False)[:, None, :] * frac[None, :, None]
+    if r_e is not None:
+        out.bg_reco_counts = window_counts(plan, r_e, True)[:, None, :] * frac[None, :, None]
 
 
 def _meta(cfg: Config, plan: Any) -> dict[str, Any]:
@@ -233,6 +269,36 @@ def _cell(r: Rates, arr: np.ndarray) -> dict[str, Any]:
     fl = {g: float(arr[:, list(c)].sum()) for g, c in FLAVOUR_GROUPS.items()}
     return {"events": float(arr.sum()), "per_day": float(arr.sum()) / r.live_days,
             "day": float(arr[~night].sum()), "night": float(arr[night].sum()), **fl}
+
+
+def _bg_cell(r: Rates, arr: np.ndarray) -> dict[str, Any]:
+    """JSON cell of one background isotope: arr has the zenith axis only."""
+    night = r.night_mask()
+    return {"events": float(arr.sum()), "per_day": float(arr.sum()) / r.live_days,
+            "day": float(arr[~night].sum()), "night": float(arr[night].sum())}
+
+
+def _bg_windows(r: Rates, edges: np.ndarray, arr: np.ndarray) -> list[dict[str, Any]]:
+    return [{"lo_mev": float(edges[j]), "hi_mev": float(edges[j + 1]),
+             **_bg_cell(r, arr[:, j])} for j in range(edges.size - 1)]
+
+
+def _backgrounds_dict(r: Rates) -> dict[str, Any]:
+    """The ``backgrounds`` block of the report (isotopes and their total)."""
+    iso = []
+    for i, name in enumerate(r.bg_names):
+        d: dict[str, Any] = {"name": name, "code": r.bg_codes[i], **_bg_cell(r, r.bg_counts[i])}
+        if r.bg_t_counts is not None:
+            d["t_windows"] = _bg_windows(r, r.t_edges, r.bg_t_counts[i])
+        if r.bg_reco_counts is not None:
+            d["reco_windows"] = _bg_windows(r, r.reco_edges, r.bg_reco_counts[i])
+        iso.append(d)
+    total: dict[str, Any] = _bg_cell(r, r.bg_counts.sum(axis=0))
+    if r.bg_t_counts is not None:
+        total["t_windows"] = _bg_windows(r, r.t_edges, r.bg_t_counts.sum(axis=0))
+    if r.bg_reco_counts is not None:
+        total["reco_windows"] = _bg_windows(r, r.reco_edges, r.bg_reco_counts.sum(axis=0))
+    return {"isotopes": iso, "total": total}
 
 
 def _windows(r: Rates, edges: np.ndarray, arr: np.ndarray) -> list[dict[str, Any]]:
@@ -285,4 +351,10 @@ def to_dict(r: Rates, zenith_edges: Any = None) -> dict[str, Any]:
     if r.reco_counts is not None:
         out["total"]["reco_windows"] = _windows(r, r.reco_edges,
                                                 r.reco_counts.sum(axis=0))
+    if r.bg_counts is not None:
+        out["backgrounds"] = _backgrounds_dict(r)
+        out["units"]["backgrounds"] = (
+            "generated decays (rate x mass x live time x visible fraction); t_windows of "
+            "the deposited energy (kinetic + accompanying gamma, unquenched), reco_windows of "
+            "triggered events; day/night by live time")
     return out

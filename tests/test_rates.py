@@ -171,7 +171,7 @@ def test_flux_sigma_and_json(week_rates, capsys):
     assert b8["flux_sigma_events"] == pytest.approx(0.12 * b8["events"], rel=1e-12)
     assert b8["day"] + b8["night"] == pytest.approx(b8["events"], rel=1e-12)
     assert sum(b8["zenith"]["nu_e"]) == pytest.approx(b8["nu_e"], rel=1e-12)
-    assert rep["schema_version"] == 1
+    assert rep["schema_version"] == 2
     json.dumps(rep)
 
 

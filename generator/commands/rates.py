@@ -78,18 +78,39 @@ def render(rep: dict[str, Any]) -> str:
                                                            strict=True)]
                 for d in rep["sources"]]
         out.append("\nevents per solar cos-zenith bin\n" + _table(rows, head))
-    for key, title in (("t_windows", "true recoil kinetic energy"),
-                       ("reco_windows", "reconstructed energy (triggered, above analysis "
-                                        "threshold)")):
-        if key not in rep["total"]:
-            continue
-        wins = rep["total"][key]
-        head = ["source"] + [f"[{w['lo_mev']:g},{w['hi_mev']:g})" for w in wins]
-        rows = [[d["name"]] + [_fmt(w["events"]) for w in d[key]]
-                for d in rep["sources"] + [{"name": "total", **rep["total"]}]]
-        out.append(f"\nevents in windows of {title}, MeV\n" + _table(rows, head))
+    out.append(_window_tables(rep["sources"], rep["total"], "source", "events", (
+        ("t_windows", "true recoil kinetic energy"),
+        ("reco_windows", "reconstructed energy (triggered, above analysis threshold)"))))
+    if "backgrounds" in rep:
+        out.append(_render_backgrounds(rep["backgrounds"]))
     out.append("\ncounts for the whole exposure; ± is the flux-model 1σ (total: quadrature "
                "sum over sources)\n")
+    return "".join(out)
+
+
+def _render_backgrounds(bg: dict[str, Any]) -> str:
+    """Background isotopes: totals, day/night, and their energy windows."""
+    head = ["isotope", "decays", "per day", "day", "night"]
+    rows = [[d["name"], _fmt(d["events"]), _fmt(d["per_day"]), _fmt(d["day"]),
+             _fmt(d["night"])] for d in bg["isotopes"] + [{"name": "total", **bg["total"]}]]
+    out = ["\nradioactive backgrounds (generated decays)\n" + _table(rows, head)]
+    out.append(_window_tables(bg["isotopes"], bg["total"], "isotope", "background events", (
+        ("t_windows", "deposited energy (kinetic + gamma)"),
+        ("reco_windows", "reconstructed energy (triggered)"))))
+    return "".join(out)
+
+
+def _window_tables(items: list[dict[str, Any]], total: dict[str, Any], label: str, what: str,
+                   kinds: tuple[tuple[str, str], ...]) -> str:
+    """One table per kind of energy window present in ``total`` (rows: items, then total)."""
+    out = []
+    for key, title in kinds:
+        if key not in total:
+            continue
+        head = [label] + [f"[{w['lo_mev']:g},{w['hi_mev']:g})" for w in total[key]]
+        rows = [[d["name"]] + [_fmt(w["events"]) for w in d[key]]
+                for d in items + [{"name": "total", **total}]]
+        out.append(f"\n{what} in windows of {title}, MeV\n" + _table(rows, head))
     return "".join(out)
 
 
