@@ -41,7 +41,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy.special import erfc, ndtr
+from scipy.special import erfc, gammaln, ndtr, pdtr, xlogy
 
 from ..errors import ConfigError
 from ..media import Medium
@@ -324,17 +324,17 @@ class ResponseModel:
         extra = np.sqrt(s["a2_extra"] * g_t + s["b2"] * g_t**2)
         lam = mu_c + mu_s + d
         out = np.zeros((e_true.size, edges.size - 1))
-        from scipy.stats import poisson
-
         for i in range(e_true.size):
             if lam[i] <= EXACT_POISSON_MAX:
                 half = 8.0 * math.sqrt(lam[i]) + 10.0
                 k = np.arange(max(0, int(lam[i] - half)), int(lam[i] + half) + 1)
-                pk = poisson.pmf(k, lam[i])
+                # Poisson pmf and lower tail via scipy.special (scipy.stats costs 0.45 s to
+                # import): p_k = exp(k ln λ − λ − ln k!), P(n ≤ k₀ − 1) = pdtr(k₀ − 1, λ)
+                pk = np.exp(xlogy(k, lam[i]) - lam[i] - gammaln(k + 1.0))
                 loc = (k - d) / y
                 sd = max(extra[i], 1e-12)
                 cdf = pk @ ndtr((g_edges[None, :] - loc[:, None]) / sd)
-                cdf += poisson.cdf(k[0] - 1, lam[i]) if k[0] > 0 else 0.0
+                cdf += pdtr(k[0] - 1, lam[i]) if k[0] > 0 else 0.0
             else:
                 sd = math.sqrt(lam[i] / y**2 + extra[i] ** 2)
                 cdf = ndtr((g_edges - g_t[i]) / sd)

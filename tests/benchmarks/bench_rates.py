@@ -2,11 +2,16 @@
 
 Usage: PYTHONPATH=. python tests/benchmarks/bench_rates.py
 Prints, per config, the time of build_plan (the generator's own tables, shared with
-`generate`) and of compute_rates on the built plan (totals, and with true/reco windows).
+`generate`) and of compute_rates on the built plan (totals, and with true/reco windows),
+then the wall time of the command `sunrecoil rates CONFIG` in a fresh process (imports, warm
+table cache, table output), the median of three runs.
 """
 
 from __future__ import annotations
 
+import os
+import subprocess
+import sys
 import time
 
 from generator.config import load_config
@@ -30,3 +35,12 @@ if __name__ == "__main__":
         t3 = time.process_time()
         print(f"{path or 'default'}: build_plan {t1 - t0:.2f} s CPU; rates totals "
               f"{t2 - t1:.3f} s; with 3 true + 3 reco windows {t3 - t2:.2f} s")
+    for path in CONFIGS:
+        walls = []
+        for _ in range(3):
+            t0 = time.perf_counter()
+            subprocess.run([sys.executable, "-m", "generator", "rates", *([path] if path else [])],
+                           check=True, stdout=subprocess.DEVNULL, env=dict(os.environ))
+            walls.append(time.perf_counter() - t0)
+        print(f"`sunrecoil rates {path or ''}`: {sorted(walls)[1]:.2f} s wall (median of 3, "
+              "warm cache)")
