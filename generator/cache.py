@@ -19,6 +19,7 @@ an unwritable folder costs the rebuild time and nothing else.
 from __future__ import annotations
 
 import contextlib
+import functools
 import hashlib
 import json
 import logging
@@ -31,7 +32,8 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["cache_dir", "cached_arrays", "CacheRejected", "content_digest", "key_text"]
+__all__ = ["cache_dir", "cached_arrays", "CacheRejected", "content_digest", "key_text",
+           "code_key", "check_arrays"]
 
 log = logging.getLogger(__name__)
 
@@ -50,6 +52,49 @@ def cache_dir() -> Path:
     """The cache folder: ``$SUNRECOIL_CACHE`` or ``~/.cache/sunrecoil``."""
     env = os.environ.get("SUNRECOIL_CACHE")
     return Path(env) if env else Path.home() / ".cache" / "sunrecoil"
+
+
+@functools.cache
+def code_key() -> dict[str, str]:
+    """Key part naming the code that builds a table: package, numpy and scipy versions, and a
+    SHA-256 over every file of the installed package (sources and data).
+
+    Any edit of the package therefore invalidates the tables keyed with it (a development
+    checkout rebuilds them once after a change; they are never silently stale). Hashing the
+    ≈ 0.8 MB of the package takes ≈ 3 ms, once per process.
+    """
+    import scipy
+
+    from . import __version__
+
+    root = Path(__file__).resolve().parent
+    h = hashlib.sha256()
+    for path in sorted(root.rglob("*")):
+        if path.is_file() and "__pycache__" not in path.parts and path.suffix != ".pyc":
+            h.update(f"|{path.relative_to(root).as_posix()}|".encode())
+            h.update(path.read_bytes())
+    return {"package": __version__, "code_sha256": h.hexdigest(), "numpy": np.__version__,
+            "scipy": scipy.__version__}
+
+
+def check_arrays(arrays: Mapping[str, np.ndarray], shapes: Mapping[str, tuple[int, ...]]
+                 ) -> None:
+    """Validator helper: every named array exists, is float64 of the given shape and finite.
+
+    Raises
+    ------
+    CacheRejected
+        Naming the first array that fails.
+    """
+    if set(arrays) != set(shapes):
+        raise CacheRejected(f"arrays {sorted(arrays)}; expected {sorted(shapes)}")
+    for name, shape in shapes.items():
+        a = arrays[name]
+        if a.dtype != np.float64 or a.shape != tuple(shape):
+            raise CacheRejected(f"{name} has shape {a.shape} and dtype {a.dtype}; expected "
+                                f"{tuple(shape)} float64")
+        if not np.all(np.isfinite(a)):
+            raise CacheRejected(f"{name} has values that are not finite")
 
 
 def key_text(key: Mapping[str, Any]) -> str:

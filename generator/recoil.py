@@ -19,10 +19,13 @@ smooth ratio σ/(T_max − t_min) with 4-point Lagrange interpolation in w.
 from __future__ import annotations
 
 import math
+import os
+from dataclasses import asdict
 
 import numpy as np
 from numpy.typing import ArrayLike
 
+from generator.cache import CacheRejected, cached_arrays, check_arrays, code_key
 from generator.errors import ConfigError
 from generator.kinematics import e_min_for_recoil, t_max
 from generator.xsec import FLAVOURS, XsecModel, dsigma_dt_flavours, sigma_total
@@ -33,6 +36,8 @@ __all__ = ["RecoilSampler"]
 #: first table row is used (those energies carry a fraction ~1e-6 of any realistic rate).
 _WIDTH_FLOOR = 1e-6
 _N_LINE_U = 8193
+#: x nodes of the 2-D table rows and of the line tables (:func:`_x_nodes`).
+_N_X, _N_X_LINE = 1537, 16001
 
 
 def _x_nodes(n_smooth: int) -> np.ndarray:
@@ -79,6 +84,10 @@ class RecoilSampler:
         Number of grid nodes in w = ln(T_max − t_min) and in the CDF value u.
     lines : tuple of float
         Exact line energies (MeV) that get their own 1-D tables (exact to ~1e-7 in the CDF).
+    cache_dir : str, Path, or None
+        Folder of the table cache (:mod:`generator.cache`; ``None`` ⇒ ``$SUNRECOIL_CACHE`` or
+        ``~/.cache/sunrecoil``). The tables are keyed by every argument above, the package code
+        and the numpy/scipy versions; a loaded entry is bit-identical to a fresh build.
     """
 
     def __init__(
@@ -91,6 +100,7 @@ class RecoilSampler:
         n_energy: int = 512,
         n_u: int = 512,
         lines: tuple[float, ...] = (),
+        cache_dir: str | os.PathLike | None = None,
     ) -> None:
         if not isinstance(model, XsecModel):
             raise ConfigError(f"model must be an XsecModel; got {type(model).__name__}")
@@ -139,20 +149,53 @@ class RecoilSampler:
         energies = _energy_for_width(widths + t_min)
         self._grid_energy = energies
 
-        u = np.linspace(0.0, 1.0, n_u)
-        table = self._build_quantiles(energies, u, 1537)
-        self._table = table.astype(np.float64).reshape(-1)
-        sig = np.stack([sigma_total(energies, p, model, t_min) for p in pdgs])
-        self._ratio = sig / widths[None, :]  # σ / (T_max − t_min), smooth in w
-
         self.lines = tuple(x for x in lines if x > self.e_threshold)
         self._line_u = np.linspace(0.0, 1.0, _N_LINE_U)
+        tables = cached_arrays("recoil", self._cache_key(),
+                               lambda: self._build_tables(energies, widths),
+                               self._validate_tables, directory=cache_dir)
+        self._table = tables["table"]
+        self._ratio = tables["ratio"]  # σ / (T_max − t_min), smooth in w
         if self.lines:
-            le = np.asarray(self.lines)
-            self._line_table = self._build_quantiles(le, self._line_u, 16001)
-            self._line_sigma = np.stack([sigma_total(le, p, model, t_min) for p in pdgs])
+            self._line_table = tables["line_table"]
+            self._line_sigma = tables["line_sigma"]
 
     # ------------------------------------------------------------------ building
+    def _cache_key(self) -> dict:
+        """Every input of the tables (the full key of their cache entry)."""
+        return {"table": "recoil-v1", **code_key(), "model": asdict(self.model),
+                "pdgs": list(self.pdgs), "e_min": self.e_min, "e_max": self.e_max,
+                "t_min": self.t_min, "n_energy": self.n_energy, "n_u": self.n_u,
+                "lines": list(self.lines), "n_x": [_N_X, _N_X_LINE], "n_line_u": _N_LINE_U,
+                "width_floor": _WIDTH_FLOOR}
+
+    def _build_tables(self, energies: np.ndarray, widths: np.ndarray) -> dict[str, np.ndarray]:
+        u = np.linspace(0.0, 1.0, self.n_u)
+        table = self._build_quantiles(energies, u, _N_X)
+        sig = np.stack([sigma_total(energies, p, self.model, self.t_min) for p in self.pdgs])
+        out = {"table": table.astype(np.float64).reshape(-1), "ratio": sig / widths[None, :]}
+        if self.lines:
+            le = np.asarray(self.lines)
+            out["line_table"] = self._build_quantiles(le, self._line_u, _N_X_LINE)
+            out["line_sigma"] = np.stack([sigma_total(le, p, self.model, self.t_min)
+                                          for p in self.pdgs])
+        return out
+
+    def _validate_tables(self, arrays: dict[str, np.ndarray]) -> None:
+        """Shapes, finiteness and ranges of loaded tables (quantiles in [0, 1], σ ≥ 0)."""
+        k, n = len(self.pdgs), len(self.lines)
+        shapes = {"table": (k * self.n_energy * self.n_u,), "ratio": (k, self.n_energy)}
+        if n:
+            shapes.update(line_table=(k, n, _N_LINE_U), line_sigma=(k, n))
+        check_arrays(arrays, shapes)
+        for name, width in (("table", self.n_u), ("line_table", _N_LINE_U)):
+            if name in arrays:
+                q = arrays[name].reshape(-1, width)
+                if q.min() < 0.0 or q.max() > 1.0 or np.any(np.diff(q, axis=1) < 0.0):
+                    raise CacheRejected(f"{name}: quantiles outside [0, 1] or decreasing")
+        if arrays["ratio"].min() < 0.0 or (n and arrays["line_sigma"].min() < 0.0):
+            raise CacheRejected("negative cross sections")
+
     def _build_quantiles(self, energies: np.ndarray, u: np.ndarray, n_x: int) -> np.ndarray:
         """Quantile tables x(u), shape (n_pdg, len(energies), len(u))."""
         x = _x_nodes(n_x)
