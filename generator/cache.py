@@ -56,8 +56,10 @@ def cache_dir() -> Path:
 
 @functools.cache
 def code_key() -> dict[str, str]:
-    """Key part naming the code that builds a table: package, numpy and scipy versions, and a
-    SHA-256 over every file of the installed package (sources and data).
+    """Key part naming the code that builds a table.
+
+    Package, numpy and scipy versions, and a SHA-256 over every file of the installed package
+    (sources and data).
 
     Any edit of the package therefore invalidates the tables keyed with it (a development
     checkout rebuilds them once after a change; they are never silently stale). Hashing the

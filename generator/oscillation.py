@@ -425,6 +425,19 @@ class FlavourModel:
             "y_e": [earth.Y_E_CORE, earth.Y_E_MANTLE],
         }
 
+    def table_key(self, source: str) -> dict:
+        """Every input of :meth:`probabilities` for one source.
+
+        Part of the cache keys of tables derived from them (e.g. the rejection envelope); the
+        code is keyed separately (:func:`generator.cache.code_key`).
+        """
+        return {"flavour": "flavour-v1",
+                "params": None if self.params is None else asdict(self.params),
+                "source": source, "solar_profile": self.solar_profile, "earth": self.earth,
+                "depth_m": self.depth_m, "ocean_as_crust": self.ocean_as_crust,
+                "energy": self._energy, "cosz": self._cosz,
+                "y_e": [earth.Y_E_CORE, earth.Y_E_MANTLE]}
+
     def _build_night_table(self) -> np.ndarray:
         n_e, n_z = len(self._energy), len(self._cosz)
         if self.params is None:

@@ -49,6 +49,7 @@ import numpy as np
 
 from . import kinematics, spectra
 from .backgrounds import background_seed
+from .cache import CacheRejected, cached_arrays, check_arrays, code_key
 from .chunks import FLAVOUR_PDG, chunk_seed, generate_chunk
 from .chunks import sigma_matrix as _sigma_matrix
 from .config import MAX_EVENTS, Config
@@ -260,6 +261,14 @@ def _energy_range(spec: Any, e_lo: float) -> tuple[float, float]:
     return max(e_lo, float(e[max(nz[0] - 1, 0)])), max(hi, top)
 
 
+def _check_nonnegative(arrays: dict[str, np.ndarray], shapes: dict[str, tuple[int, ...]]
+                       ) -> None:
+    """Validator of cached plan tables: float64, the expected shapes, finite and ≥ 0."""
+    check_arrays(arrays, shapes)
+    if any(arrays[k].min(initial=0.0) < 0.0 for k in shapes):
+        raise CacheRejected("negative values")
+
+
 def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, wz, w_total,
                  n_e) -> SourcePlan:
     from .spectra import InverseCDFSampler
@@ -282,16 +291,33 @@ def _plan_source(name, code, region, phi, spec, recoil, flavour, pdgs, centres, 
     pdf = spec.pdf(e_grid) if continuous else np.zeros(e_grid.size)
     n_grid = e_grid.size if continuous else 0
     all_e = np.concatenate([e_grid[:n_grid], line_e])
-    sig = _sigma_matrix(recoil, all_e, pdgs)
-    # expected events per zenith bin and flavour: the shared code path of generator.expected
     qw = quadrature_weights(e_grid[:n_grid], pdf[:n_grid], line_b, continuous)
-    table = zenith_flavour_table(flavour, region, all_e, qw, sig[:, None, :], centres,
-                                 wz)[:, 0, :]
+    # the two expensive tables come from the disk cache when a valid entry exists; both are
+    # keyed by every array they are computed from and by the recoil and flavour inputs
+    base = {**code_key(), "recoil": recoil.table_key(), "flavour": flavour.table_key(region),
+            "pdgs": list(pdgs)}
+
+    def zenith_table() -> dict[str, np.ndarray]:
+        # expected events per zenith bin and flavour: the shared code path of
+        # generator.expected
+        sig = _sigma_matrix(recoil, all_e, pdgs)
+        return {"table": zenith_flavour_table(flavour, region, all_e, qw, sig[:, None, :],
+                                              centres, wz)[:, 0, :]}
+
+    def bounds() -> dict[str, np.ndarray]:
+        return {"bounds": cell_bounds(flavour, region, recoil, pdgs, e_grid)}
+
+    table = cached_arrays(
+        "zenith", {**base, "table": "zenith-v1", "energy": all_e, "weights": qw,
+                   "centres": centres, "exposure": wz}, zenith_table,
+        lambda a: _check_nonnegative(a, {"table": (centres.size, 3)}))["table"]
     mean_sigma = float(table.sum() / w_total)
     counts = n_e * phi * table
     expected = float(counts.sum())
-    envelope = build_envelope(e_grid, uniform,
-                              cell_bounds(flavour, region, recoil, pdgs, e_grid))
+    cells = cached_arrays(
+        "envelope", {**base, "table": "envelope-v1", "grid": e_grid}, bounds,
+        lambda a: _check_nonnegative(a, {"bounds": (e_grid.size - 1,)}))["bounds"]
+    envelope = build_envelope(e_grid, uniform, cells)
     proposal = None
     efficiency = 1.0
     if expected > 0.0:

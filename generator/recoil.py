@@ -151,7 +151,7 @@ class RecoilSampler:
 
         self.lines = tuple(x for x in lines if x > self.e_threshold)
         self._line_u = np.linspace(0.0, 1.0, _N_LINE_U)
-        tables = cached_arrays("recoil", self._cache_key(),
+        tables = cached_arrays("recoil", self.table_key(),
                                lambda: self._build_tables(energies, widths),
                                self._validate_tables, directory=cache_dir)
         self._table = tables["table"]
@@ -161,8 +161,11 @@ class RecoilSampler:
             self._line_sigma = tables["line_sigma"]
 
     # ------------------------------------------------------------------ building
-    def _cache_key(self) -> dict:
-        """Every input of the tables (the full key of their cache entry)."""
+    def table_key(self) -> dict:
+        """Every input of the tables.
+
+        The full key of their cache entry, and part of the keys of tables derived from them.
+        """
         return {"table": "recoil-v1", **code_key(), "model": asdict(self.model),
                 "pdgs": list(self.pdgs), "e_min": self.e_min, "e_max": self.e_max,
                 "t_min": self.t_min, "n_energy": self.n_energy, "n_u": self.n_u,

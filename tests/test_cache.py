@@ -103,3 +103,114 @@ def test_cache_never_unpickles(tmp_path):
     np.savez(path, x=np.array([{"evil": 1}], dtype=object))
     again = cached_arrays("t", {"a": 1}, lambda: {"x": np.arange(3.0)}, directory=tmp_path)
     assert np.array_equal(again["x"], built["x"])
+
+
+# --- recoil-sampler and per-source plan tables (issue #12: start-up from the cache) ---------
+
+RECOIL_KW = dict(e_min=0.5, e_max=12.0, t_min=0.3, n_energy=24, n_u=32, lines=(0.862, 1.44))
+
+
+def _recoil(tmp_path):
+    from generator.recoil import RecoilSampler
+    from generator.xsec import XsecModel
+
+    return RecoilSampler(XsecModel(), cache_dir=tmp_path, **RECOIL_KW)
+
+
+def _recoil_arrays(r):
+    return {k: getattr(r, k) for k in ("_table", "_ratio", "_line_table", "_line_sigma")}
+
+
+def test_recoil_tables_from_cache_are_bit_identical(tmp_path, caplog):
+    fresh = _recoil_arrays(_recoil(tmp_path))
+    assert len(list(tmp_path.glob("recoil_*.npz"))) == 1
+    with caplog.at_level(logging.WARNING, logger="generator.cache"):
+        loaded = _recoil_arrays(_recoil(tmp_path))
+    assert not caplog.records
+    for k, v in fresh.items():
+        assert loaded[k].dtype == v.dtype and np.array_equal(loaded[k], v), k
+    # every input is part of the key: another threshold or model is another entry
+    from generator.recoil import RecoilSampler
+    from generator.xsec import XsecModel
+
+    RecoilSampler(XsecModel(), cache_dir=tmp_path, **{**RECOIL_KW, "t_min": 0.31})
+    RecoilSampler(XsecModel(corrections="tree"), cache_dir=tmp_path, **RECOIL_KW)
+    RecoilSampler(XsecModel(magnetic_moment=3.0), cache_dir=tmp_path, **RECOIL_KW)
+    assert len(list(tmp_path.glob("recoil_*.npz"))) == 4
+
+
+@pytest.mark.parametrize("damage", ["forged_decreasing", "forged_negative_sigma", "truncate",
+                                    "unsigned_edit"])
+def test_damaged_recoil_entry_is_rebuilt(tmp_path, caplog, damage):
+    fresh = _recoil_arrays(_recoil(tmp_path))
+    path = next(tmp_path.glob("recoil_*.npz"))
+    with np.load(path, allow_pickle=False) as f:
+        data = {k: np.array(f[k]) for k in f.files}
+    key = str(data["__key__"][()])
+    arrays = {k: v for k, v in data.items() if not k.startswith("__")}
+    if damage == "truncate":
+        path.write_bytes(path.read_bytes()[:5000])
+    else:
+        if damage == "forged_decreasing":
+            arrays["table"] = arrays["table"][::-1].copy()
+        else:
+            arrays["ratio"] = -arrays["ratio"] if damage == "forged_negative_sigma" \
+                else arrays["ratio"]
+            if damage == "unsigned_edit":
+                arrays["ratio"] = arrays["ratio"] * 1.01
+        digest = data["__sha256__"] if damage == "unsigned_edit" else \
+            np.array(content_digest(key, arrays))
+        np.savez(path, **arrays, __key__=data["__key__"], __sha256__=digest)
+    with caplog.at_level(logging.WARNING, logger="generator.cache"):
+        loaded = _recoil_arrays(_recoil(tmp_path))
+    assert any("rejected" in r.getMessage() for r in caplog.records)
+    for k, v in fresh.items():
+        assert np.array_equal(loaded[k], v), k
+
+
+@pytest.fixture(scope="module")
+def tiny_config():
+    from conftest import make_config
+
+    return make_config({
+        "exposure": {"start_utc": "2031-01-01T00:00:00Z", "stop_utc": "2031-01-08T00:00:00Z"},
+        "interaction": {"threshold_mev": 1.0},
+        "sources": {"include": ["8B", "7Be", "pep"]},
+        "run": {"events": 2000, "chunk_size": 1024, "seed": 5},
+    })
+
+
+def _events(cfg):
+    from generator.pipeline import memory_run
+
+    sink, summary = memory_run(cfg, 2000, 5)
+    return sink.arrays(), summary
+
+
+def test_events_identical_with_cold_and_warm_cache(tmp_path, monkeypatch, caplog, tiny_config):
+    """Bit-identical events and expected counts whether the tables are built or loaded."""
+    monkeypatch.setenv("SUNRECOIL_CACHE", str(tmp_path))
+    cold, s_cold = _events(tiny_config)
+    names = sorted(p.name.split("_")[0] for p in tmp_path.glob("*.npz"))
+    assert {"recoil", "envelope", "zenith"} <= set(names), names
+    with caplog.at_level(logging.WARNING, logger="generator.cache"):
+        warm, s_warm = _events(tiny_config)
+    assert not caplog.records
+    assert s_cold.expected_events == s_warm.expected_events
+    for k, v in cold.items():
+        assert warm[k].dtype == v.dtype and warm[k].tobytes() == v.tobytes(), k
+    # planted plan tables with forged checksums: negative values are refused and rebuilt
+    for path in list(tmp_path.glob("envelope_*.npz")) + list(tmp_path.glob("zenith_*.npz")):
+        with np.load(path, allow_pickle=False) as f:
+            data = {k: np.array(f[k]) for k in f.files}
+        key = str(data["__key__"][()])
+        arrays = {k: -v for k, v in data.items() if not k.startswith("__")}
+        np.savez(path, **arrays, __key__=data["__key__"],
+                 __sha256__=np.array(content_digest(key, arrays)))
+    caplog.clear()
+    with caplog.at_level(logging.WARNING, logger="generator.cache"):
+        again, s_again = _events(tiny_config)
+    assert sum("rejected" in r.getMessage() for r in caplog.records) >= 2
+    assert s_again.expected_events == s_cold.expected_events
+    for k, v in cold.items():
+        assert again[k].tobytes() == v.tobytes(), k
