@@ -25,7 +25,7 @@ log = logging.getLogger("generator")
 
 #: Commands implemented in ``generator/commands/<name>.py``; each module provides
 #: ``add_parser(subparsers)`` (which sets ``run=<function(args) -> int>`` as a default).
-COMMAND_MODULES: tuple[str, ...] = ("check", "merge", "rates", "export")
+COMMAND_MODULES: tuple[str, ...] = ("check", "merge", "rates", "export", "reweight")
 
 
 class _Parser(argparse.ArgumentParser):

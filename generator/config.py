@@ -479,15 +479,18 @@ def parse_config(data: dict, base_dir: Path | None = None, source_file: str | No
     )
 
 
-def load_config(path: str | Path | None = None) -> Config:
+def load_config(path: str | Path | None = None, *, under: dict | None = None) -> Config:
     """Load the embedded default configuration, merged with the TOML file ``path`` if given.
+
+    ``under`` replaces the embedded default as the mapping the file is merged over (e.g. an
+    event file's recorded configuration, for ``sunrecoil reweight``).
 
     Raises
     ------
     ConfigError
         For unreadable files, TOML syntax errors and invalid values.
     """
-    default = tomllib.loads(default_config_text())
+    default = tomllib.loads(default_config_text()) if under is None else under
     if path is None:
         return parse_config(default, None, None)
     p = Path(path)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime as _dt
+import hashlib
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -34,11 +35,13 @@ def stage_names(response_on: bool, backgrounds_on: bool = False) -> dict[str, st
 def provenance(plan: RunPlan, entropy: int, n: int) -> dict[str, Any]:
     """Root attributes of an event file."""
     cfg = plan.config
+    text = to_toml(cfg)
     return {
         "tool": "sunrecoil",
         "tool_version": __version__,
         "layout_version": LAYOUT_VERSION,
-        "config_toml": to_toml(cfg),
+        "config_toml": text,
+        "config_sha256": hashlib.sha256(text.encode("utf-8")).hexdigest(),
         "config_source": cfg.source_file or "embedded default",
         "seed_entropy": str(entropy),
         "seed_scheme": "chunk k draws from numpy SeedSequence(seed_entropy, spawn_key=(k,)); "
