@@ -214,3 +214,22 @@ def test_events_identical_with_cold_and_warm_cache(tmp_path, monkeypatch, caplog
     assert s_again.expected_events == s_cold.expected_events
     for k, v in cold.items():
         assert again[k].tobytes() == v.tobytes(), k
+
+
+@pytest.mark.parametrize("source, variant", [("8B", "measured"), ("pp", "nominal")])
+def test_spectrum_tables_from_cache_are_bit_identical(tmp_path, monkeypatch, caplog, source,
+                                                      variant):
+    from generator.spectra.spectrum import _continuous_table
+
+    monkeypatch.setenv("SUNRECOIL_CACHE", str(tmp_path))
+    fresh = _continuous_table(source, variant)
+    path = next(tmp_path.glob("spectrum_*.npz"))
+    with caplog.at_level(logging.WARNING, logger="generator.cache"):
+        loaded = _continuous_table(source, variant)
+    assert not caplog.records
+    assert all(a.tobytes() == b.tobytes() for a, b in zip(fresh, loaded, strict=True))
+    path.write_bytes(path.read_bytes()[:1000])                  # truncated: rebuilt
+    with caplog.at_level(logging.WARNING, logger="generator.cache"):
+        again = _continuous_table(source, variant)
+    assert any("rejected" in r.getMessage() for r in caplog.records)
+    assert all(a.tobytes() == b.tobytes() for a, b in zip(fresh, again, strict=True))

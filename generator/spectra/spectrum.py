@@ -15,6 +15,7 @@ from functools import cache
 
 import numpy as np
 
+from generator.cache import CacheRejected, cached_arrays, check_arrays, code_key
 from generator.constants import ELECTRON_MASS
 from generator.errors import ConfigError
 from generator.spectra.beta import (
@@ -219,16 +220,39 @@ def source_endpoint(name: str) -> float:
     return q_beta_plus(parent, daughter)
 
 
+def _continuous_table(source: str, variant: str) -> tuple[np.ndarray, np.ndarray]:
+    """(E grid in MeV, unnormalised density) of a continuous source, built or from the cache.
+
+    The ⁸B model needs ≈ 0.3 s (Coulomb wave functions by ODE integration), so the tables go
+    through :mod:`generator.cache`, keyed by source, variant, grid size and the package code;
+    a loaded table is bit-identical to a fresh one.
+    """
+
+    def build() -> dict[str, np.ndarray]:
+        if source == "8B":
+            e, pdf = b8_variant_spectrum(variant, GRID_POINTS)
+        else:
+            _, _, z, a = _BETA_SOURCES[source]
+            q = source_endpoint(source)
+            e = np.linspace(0.0, q, GRID_POINTS)
+            pdf = allowed_shape(e, q, z, a)
+        return {"energy": np.asarray(e, dtype=np.float64),
+                "density": np.asarray(pdf, dtype=np.float64)}
+
+    def validate(arrays: dict[str, np.ndarray]) -> None:
+        check_arrays(arrays, {"energy": (GRID_POINTS,), "density": (GRID_POINTS,)})
+        if np.any(np.diff(arrays["energy"]) <= 0.0) or arrays["density"].min() < 0.0:
+            raise CacheRejected("energy grid not increasing or negative density")
+
+    t = cached_arrays("spectrum", {"table": "spectrum-v1", **code_key(), "source": source,
+                                   "variant": variant, "points": GRID_POINTS}, build, validate)
+    return t["energy"], t["density"]
+
+
 @cache
 def _build(source: str, variant: str) -> Spectrum:
-    if source in _BETA_SOURCES:
-        _, _, z, a = _BETA_SOURCES[source]
-        q = source_endpoint(source)
-        e = np.linspace(0.0, q, GRID_POINTS)
-        return Spectrum(source, e, allowed_shape(e, q, z, a))
-    if source == "8B":
-        e, pdf = b8_variant_spectrum(variant, GRID_POINTS)
-        return Spectrum("8B", e, pdf)
+    if source in _BETA_SOURCES or source == "8B":
+        return Spectrum(source, *_continuous_table(source, variant))
     q = source_endpoint(source)
     if source == "7Be":
         lines = ((q, BE7_BRANCHING[0]), (q - LI7_EXCITED_MEV, BE7_BRANCHING[1]))
