@@ -74,7 +74,7 @@ from .io.reader import EventFile
 from .kinematics import t_max
 from .oscillation import FlavourModel
 from .userfiles import clip
-from .xsec import XsecModel, dsigma_dt
+from .xsec import XsecModel, dsigma_dt_magnetic
 
 __all__ = ["ReweightError", "DensityRatio", "ReweightSummary", "config_sha256",
            "check_reweightable", "load_alternative", "reweight", "append_weights",
@@ -233,11 +233,47 @@ class _SourceRatio:
     region_gen: str
     region_alt: str | None           # None: source removed in the alternative (r = 0)
     continuum: float                 # Φ_B / Φ_A (continuous part)
-    spec_gen: Any = None             # set when the continuous shape changes
-    spec_alt: Any = None
+    shape: Any = None                # _PdfRatio, set when the continuous shape changes
     line_e32: np.ndarray = field(default_factory=lambda: np.zeros(0, np.float32))
     line_e: np.ndarray = field(default_factory=lambda: np.zeros(0))
     line_factor: np.ndarray = field(default_factory=lambda: np.zeros(0))
+
+
+class _PdfRatio:
+    """f_B(E)/f_A(E) of two continuous spectra (0 where f_A = 0), vectorised.
+
+    Both pdfs are linear between their grid nodes (:meth:`generator.spectra.Spectrum.pdf`);
+    when the grids are the same (the ⁸B variants share one) the cell is found once, by index
+    arithmetic on a uniform grid, instead of two binary searches.
+    """
+
+    def __init__(self, gen: Any, alt: Any) -> None:
+        self.gen, self.alt = gen, alt
+        x, self.fg = gen.grid()
+        xa, self.fa = alt.grid()
+        self.shared = bool(np.array_equal(x, xa)) and x.size >= 2
+        self.x = x
+        h = np.diff(x)
+        self.uniform = self.shared and bool(np.all(np.abs(h - h.mean()) <= 1e-9 * h.mean()))
+        self.x0, self.inv_h = float(x[0]), float((x.size - 1) / (x[-1] - x[0]))
+
+    def __call__(self, e: np.ndarray) -> np.ndarray:
+        if not self.shared:
+            pg, pa = self.gen.pdf(e), self.alt.pdf(e)
+        else:
+            x, n = self.x, self.x.size
+            if self.uniform:
+                i = np.clip(((e - self.x0) * self.inv_h).astype(np.intp), 0, n - 2)
+                i -= (e < x[i]) & (i > 0)                   # rounding at a node: the cell
+                i += (e >= x[i + 1]) & (i < n - 2)          # with x[i] <= e < x[i + 1]
+            else:
+                i = np.clip(np.searchsorted(x, e, side="right") - 1, 0, n - 2)
+            frac = (e - x[i]) / (x[i + 1] - x[i])
+            inside = (e >= x[0]) & (e <= x[-1])
+            pg = np.where(inside, self.fg[i] + frac * (self.fg[i + 1] - self.fg[i]), 0.0)
+            pa = np.where(inside, self.fa[i] + frac * (self.fa[i + 1] - self.fa[i]), 0.0)
+        ok = pg > 0
+        return np.where(ok, pa / np.where(ok, pg, 1.0), 0.0)
 
 
 class DensityRatio:
@@ -279,7 +315,7 @@ class DensityRatio:
             fac = [k * alt_lines.get(float(np.float32(e)), 0.0) / b for e, b in gl]
             self.sources.append(_SourceRatio(
                 code, name, _region(gen, name), sp.production_region, k,
-                None if same else spec_g, None if same else sp.spectrum,
+                None if same else _PdfRatio(spec_g, sp.spectrum),
                 np.array([e for e, _ in gl], np.float32), np.array([e for e, _ in gl]),
                 np.array(fac)))
         self._lookup = np.full(1 << 16, -1, dtype=np.intp)       # int16 code + 32768 → index
@@ -331,12 +367,9 @@ class DensityRatio:
                 f[m] = lf
                 energy[sel[m]] = le                    # the exact line energy
                 is_line |= m
-            if s.spec_gen is not None:
+            if s.shape is not None:
                 c = ~is_line
-                eg = energy[sel[c]]
-                pg = s.spec_gen.pdf(eg)
-                ok = pg > 0
-                f[c] *= np.where(ok, s.spec_alt.pdf(eg) / np.where(ok, pg, 1.0), 0.0)
+                f[c] *= s.shape(energy[sel[c]])
             r[sel] = f
             if self.flavour_gen is not None:
                 self._flavour(r, sel, s, energy, ev)
@@ -346,8 +379,7 @@ class DensityRatio:
             t = np.asarray(ev["e_kinetic"])[sig].astype(np.float64)
             t = np.minimum(t, t_max(e) * (1.0 - 1e-6))    # float32 rounding above T_max(E)
             pdg = np.asarray(ev["nu_pdg"])[sig]
-            d_gen = dsigma_dt(e, t, pdg, self.xsec_gen)
-            d_alt = dsigma_dt(e, t, pdg, self.xsec_alt)
+            d_gen, d_alt = _dsigma_pair(e, t, pdg, self.xsec_gen, self.xsec_alt)
             ok = d_gen > 0
             r[sig] *= np.where(ok, d_alt / np.where(ok, d_gen, 1.0), 0.0)
         if self.threshold is not None:
@@ -369,6 +401,38 @@ class DensityRatio:
             p.append(fm.probabilities(region, e, cz)[rows, col])
         ok = p[0] > 0
         r[sel] *= np.where(ok, p[1] / np.where(ok, p[0], 1.0), 0.0)
+
+
+def _dsigma_pair(e: np.ndarray, t: np.ndarray, pdg: np.ndarray, gen: XsecModel,
+                 alt: XsecModel) -> tuple[np.ndarray, np.ndarray]:
+    """dσ/dT (cm²/MeV) of both models at 0 < T < T_max(E), sharing what they have in common.
+
+    The same closed forms as :func:`generator.xsec.dsigma_dt` (weak part: tree level or
+    Bahcall–Kamionkowski–Sirlin 1995, NSI in the couplings; plus Vogel & Engel 1989 magnetic
+    part), evaluated once where the two models agree: the QED factors when the corrections
+    agree, the whole weak part when only the magnetic moment differs.
+    """
+    weak_gen = _weak(e, t, pdg, gen, None)
+    if dataclasses.replace(gen, magnetic_moment=0.0) == dataclasses.replace(
+            alt, magnetic_moment=0.0):
+        weak_alt = weak_gen
+    else:
+        weak_alt = _weak(e, t, pdg, alt, weak_gen[1] if alt.corrections == gen.corrections
+                         else None)
+    out = []
+    for model, (weak, _) in ((gen, weak_gen), (alt, weak_alt)):
+        out.append(weak + dsigma_dt_magnetic(e, t, model.magnetic_moment)
+                   if model.magnetic_moment else weak)
+    return out[0], out[1]
+
+
+def _weak(e: np.ndarray, t: np.ndarray, pdg: np.ndarray, model: XsecModel, terms: Any
+          ) -> tuple[np.ndarray, Any]:
+    """The weak part of dσ/dT inside the kinematic range, and its QED factors."""
+    from .xsec import _combine, _qed_terms
+
+    terms = _qed_terms(model, e, t) if terms is None else terms
+    return np.maximum(_combine(model, e, t, pdg, terms), 0.0), terms
 
 
 def _flavour_model(cfg: Config) -> FlavourModel:
@@ -463,7 +527,8 @@ def _chunks(ev: EventFile, size: int) -> Iterator[dict[str, np.ndarray]]:
 def reweight(event_file: str | Path, alternative: Config | str | Path,
              out: str | Path | None = None, *, append: bool = False, name: str = "alt",
              force: bool = False, base: str = "file", chunk_size: int = DEFAULT_CHUNK,
-             alt_plan: Any = None) -> ReweightSummary:
+             alt_plan: Any = None, density_ratio: DensityRatio | None = None
+             ) -> ReweightSummary:
     """Compute r = dN_B/dN_A for every event of ``event_file`` and write it.
 
     Parameters
@@ -487,6 +552,9 @@ def reweight(event_file: str | Path, alternative: Config | str | Path,
         Events per read chunk.
     alt_plan : RunPlan, optional
         A prebuilt :func:`~generator.pipeline.build_plan` of the alternative.
+    density_ratio : DensityRatio, optional
+        A prebuilt ratio for this event file and ``alt_plan`` (benchmarks: the tables are
+        then not part of the timed pass).
 
     Raises
     ------
@@ -525,7 +593,10 @@ def reweight(event_file: str | Path, alternative: Config | str | Path,
         names = [str(_dec(x)) for x in ev.table("sources/name")]
         codes = dict(zip(names, (int(c) for c in ev.table("sources/code")), strict=True))
         flux = dict(zip(names, (float(x) for x in ev.table("sources/flux")), strict=True))
-        ratio = DensityRatio(gen, flux, codes, plan)
+        ratio = density_ratio if density_ratio is not None else DensityRatio(gen, flux, codes,
+                                                                             plan)
+        if ratio.alt_plan is not plan:
+            raise ReweightError("reweight: density_ratio was built for another alternative")
         attrs = _attributes(ev, alt, plan, ratio)
         n_events = ev.n_events
         target = Path(out) if out is not None else Path(event_file)

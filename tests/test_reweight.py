@@ -278,3 +278,40 @@ def test_cli_missing_and_foreign_files(tmp_path, capsys):
     assert not out.exists()
     err = capsys.readouterr().err
     assert "no such event file" in err and "not a sunrecoil event file" in err
+
+
+def test_shared_cross_section_evaluation_equals_dsigma_dt():
+    """The reweighting's shared evaluation of two models is bit-identical to xsec.dsigma_dt
+    (same closed forms: 't Hooft 1971, Bahcall–Kamionkowski–Sirlin 1995, Vogel & Engel 1989)."""
+    from generator.reweight import _dsigma_pair
+    from generator.xsec import XsecModel, dsigma_dt
+
+    rng = np.random.default_rng(1)
+    e = rng.uniform(4.0, 15.0, 20_000)
+    t = rng.uniform(0.01, 0.9, e.size) * e
+    pdg = rng.choice([12, 14, 16], e.size)
+    models = [XsecModel(), XsecModel(corrections="tree"), XsecModel(magnetic_moment=50.0),
+              XsecModel(nsi_eps_l=(0.3, 0.0, 0.0)),
+              XsecModel(corrections="tree", magnetic_moment=3.0, nsi_eps_r=(0.0, 0.1, 0.0))]
+    for a in models:
+        for b in models:
+            x, y = _dsigma_pair(e, t, pdg, a, b)
+            assert np.array_equal(x, dsigma_dt(e, t, pdg, a))
+            assert np.array_equal(y, dsigma_dt(e, t, pdg, b))
+
+
+def test_spectrum_ratio_matches_the_pdfs():
+    """The shared-grid shape ratio equals Spectrum.pdf ratios (Winter et al. 2006 ⁸B table and
+    its ±1σ variants, generator/spectra/boron8_measured.py) to rounding."""
+    from generator.reweight import _PdfRatio
+    from generator.spectra import get_spectrum
+
+    e = np.concatenate([np.random.default_rng(2).uniform(0.0, 17.2, 50_000),
+                        get_spectrum("8B", "measured").grid()[0]])
+    for a, b in (("measured", "plus1sigma"), ("minus1sigma", "model")):
+        ga, gb = get_spectrum("8B", a), get_spectrum("8B", b)
+        pa, pb = ga.pdf(e), gb.pdf(e)
+        ref = np.where(pa > 0, pb / np.where(pa > 0, pa, 1.0), 0.0)
+        ratio = _PdfRatio(ga, gb)
+        assert ratio.uniform
+        assert np.allclose(ratio(e), ref, rtol=1e-9, atol=1e-12)
