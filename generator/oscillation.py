@@ -27,11 +27,10 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 
 import numpy as np
-from scipy.interpolate import CubicSpline
 
 from generator import cache as _cache
 from generator import earth, solar_model
-from generator.cache import CacheRejected, cached_arrays
+from generator.cache import CacheRejected, cached_arrays, check_arrays
 from generator.constants import MATTER_POTENTIAL_EV_PER_NA
 from generator.errors import ConfigError
 
@@ -293,6 +292,8 @@ def sun_mass_fractions(
     pos = e[e > 0.0]
     out = np.empty((e.size, 3))
     if pos.size:
+        from scipy.interpolate import CubicSpline  # lazy: ≈ 0.15 s of import, build time only
+
         lo = math.log(pos.min() * ne.min())
         hi = math.log(pos.max() * ne.max())
         n = max(16, int(math.ceil((hi - lo) / _LN_A_STEP)) + 1)
@@ -469,7 +470,7 @@ class FlavourModel:
             fr = np.tile([1.0, 0.0, 0.0], (len(self._energy), 1))
             day = fr
         else:
-            fr = sun_mass_fractions(self._energy, source, self.params, self.solar_profile)
+            fr = self._mass_fractions(source)
             day = vacuum_flavour_probs(fr, self.params)
         night = np.einsum("ei,ezia->eza", fr, self._p_earth)
         full = np.concatenate([night, day[:, None, :], day[:, None, :]], axis=1)
@@ -478,6 +479,26 @@ class FlavourModel:
         cells = np.concatenate([t[:-1, :-1], t[:-1, 1:], t[1:, :-1], t[1:, 1:]], axis=-1)
         self._cells[source] = np.ascontiguousarray(cells.reshape(-1, 8))
         self._n_zc = n_z + 2
+
+    def _mass_fractions(self, source: str) -> np.ndarray:
+        """:func:`sun_mass_fractions` on the table energies, built or from the disk cache."""
+        n_e = len(self._energy)
+
+        def build() -> dict[str, np.ndarray]:
+            return {"fractions": sun_mass_fractions(self._energy, source, self.params,
+                                                    self.solar_profile)}
+
+        def validate(arrays: dict[str, np.ndarray]) -> None:
+            check_arrays(arrays, {"fractions": (n_e, 3)})
+            f = arrays["fractions"]
+            if f.min() < -1e-12 or f.max() > 1.0 + 1e-12 or np.max(np.abs(f.sum(1) - 1)) > 1e-9:
+                raise CacheRejected("mass fractions outside [0, 1] or not summing to 1")
+
+        key = {"table": "sun-fractions-v1", **_cache.code_key(), "params": asdict(self.params),
+               "source": source, "solar_profile": self.solar_profile, "energy": self._energy,
+               "ln_a_step": _LN_A_STEP}
+        return cached_arrays("sunfrac", key, build, validate,
+                             directory=self.cache_dir)["fractions"]
 
     # -- queries ----------------------------------------------------------------------
     def probabilities(self, source: str, energy: np.ndarray, cos_zenith: np.ndarray) -> np.ndarray:

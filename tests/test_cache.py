@@ -192,7 +192,7 @@ def test_events_identical_with_cold_and_warm_cache(tmp_path, monkeypatch, caplog
     monkeypatch.setenv("SUNRECOIL_CACHE", str(tmp_path))
     cold, s_cold = _events(tiny_config)
     names = sorted(p.name.split("_")[0] for p in tmp_path.glob("*.npz"))
-    assert {"recoil", "envelope", "zenith"} <= set(names), names
+    assert {"recoil", "envelope", "zenith", "sunfrac"} <= set(names), names
     with caplog.at_level(logging.WARNING, logger="generator.cache"):
         warm, s_warm = _events(tiny_config)
     assert not caplog.records
