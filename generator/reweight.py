@@ -38,8 +38,9 @@ Normalisation
 The deterministic expected count of B (``expected_events``, from
 :func:`generator.pipeline.build_plan` of B, the same number ``sunrecoil rates`` prints) is
 recorded in the attributes. Σ_i weight_i r_i is a Monte Carlo estimate of it, with error
-``weight_sum_mc_error`` = √n × (N_A / n) × std(r) (multinomial source fractions of a fixed
-count; Poisson counts add a relative 1/√n). The sum is exactly B's count (to rounding) only
+``weight_sum_mc_error`` = √(Σw² − (Σw)²/n) (n events drawn independently from the generated
+density, i.e. multinomial source fractions of a fixed count; Poisson counts add a relative
+1/√n). The sum is exactly B's count (to rounding) only
 when r is the same constant for every event, e.g. a flux override or flux model change of a
 single-source file; with several sources whose fluxes change by different factors it
 fluctuates with the sampled source fractions.
@@ -677,14 +678,28 @@ def _attributes(ev: EventFile, alt: Config, plan: Any, ratio: DensityRatio) -> d
                          "estimate with standard error weight_sum_mc_error",
         "created_utc": _dt.datetime.now(_dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ"),
         "units_convention": "weight in expected events; ratio dimensionless",
+        **_partial_note(ev),
     }
+
+
+def _partial_note(ev: EventFile) -> dict[str, str]:
+    """Say when Σw does not estimate expected_events (triggered-only files, shards)."""
+    a = ev.attrs
+    if "shard_index" in a:
+        return {"weight_sum_note": "the event file is one shard of a run: weight_sum covers "
+                                   "this shard's events only"}
+    if "n_generated" in a and int(a["n_generated"]) != ev.n_events:
+        return {"weight_sum_note": "the event file keeps triggered events only: weight_sum "
+                                   "estimates the alternative's triggered count, "
+                                   "expected_events counts all events above threshold"}
+    return {}
 
 
 def _write_side(tmp: Path, ev: EventFile, ratio: DensityRatio, attrs: dict[str, Any],
                 chunk_size: int) -> dict[str, Any]:
     n = ev.n_events
     rows = max(1, min(n, 1 << 16))
-    s1 = s2 = sw = 0.0
+    s1 = sw = sw2 = 0.0
     with h5py.File(tmp, "w") as f:
         for k, v in attrs.items():
             if isinstance(v, np.ndarray) and v.dtype == object:
@@ -705,13 +720,12 @@ def _write_side(tmp: Path, ev: EventFile, ratio: DensityRatio, attrs: dict[str, 
             d_r[start:stop] = r
             d_w[start:stop] = w
             s1 += float(r.sum())
-            s2 += float(np.dot(r, r))
             sw += float(w.sum())
+            sw2 += float(np.dot(w, w))
             start = stop
-    w_gen = float(ev.attrs["expected_events"]) / n if n else 0.0
-    var = max(s2 / n - (s1 / n) ** 2, 0.0) if n else 0.0
-    return {"n_events": n, "weight_sum": sw,
-            "weight_sum_mc_error": float(np.sqrt(n * var) * w_gen),
+    # standard error of Σw for n events drawn independently from the generated density
+    err = float(np.sqrt(max(sw2 - sw * sw / n, 0.0))) if n else 0.0
+    return {"n_events": n, "weight_sum": sw, "weight_sum_mc_error": err,
             "ratio_mean": s1 / n if n else 0.0}
 
 

@@ -315,3 +315,28 @@ def test_spectrum_ratio_matches_the_pdfs():
         ratio = _PdfRatio(ga, gb)
         assert ratio.uniform
         assert np.allclose(ratio(e), ref, rtol=1e-9, atol=1e-12)
+
+
+def test_backgrounds_kept_or_removed_and_oscillations_off(tmp_path, capsys):
+    """Background events: r = 1 with the same [backgrounds], 0 without; changed rates are
+    refused. Oscillations off in B: P_B = (1, 0, 0), so ν_μ, ν_τ events get r = 0 (identity)."""
+    bg = {"enabled": True, "11C": {"rate": 2500.0, "unit": "cpd/100t"}}
+    path = tmp_path / "bg.h5"
+    generate(_cfg(backgrounds=bg), path, n_events=20_000, seed=6)
+    ev = _read(path)
+    is_bg = ev["origin"] >= 100
+    assert is_bg.sum() > 1000
+    for alt, expect in ((_cfg(backgrounds=bg, interaction={"corrections": "tree"}), 1.0),
+                        (_cfg(interaction={"corrections": "tree"}), 0.0)):
+        reweight(path, alt, tmp_path / "w.h5", force=True)
+        with h5py.File(tmp_path / "w.h5", "r") as f:
+            assert np.all(f["weights/ratio"][()][is_bg] == expect)
+    changed = _alt_file(tmp_path, "[backgrounds.11C]\nrate = 10.0\n")
+    assert main(["reweight", str(path), changed, "-o", str(tmp_path / "x.h5")]) == 2
+    assert "[backgrounds] added or changed" in capsys.readouterr().err
+    s = reweight(path, _cfg(backgrounds=bg, oscillation={"enabled": False}), tmp_path / "o.h5")
+    with h5py.File(tmp_path / "o.h5", "r") as f:
+        r = f["weights/ratio"][()]
+    assert np.all(r[~is_bg & (ev["nu_pdg"] != 12)] == 0.0)
+    assert np.all(r[~is_bg & (ev["nu_pdg"] == 12)] > 1.0)       # 1 / P_ee
+    assert abs(s.weight_sum - s.expected_events) < Z_MAX * s.weight_sum_mc_error
