@@ -28,6 +28,7 @@ import math
 
 import numpy as np
 
+from .cache import CacheRejected, cached_arrays, code_key
 from .errors import ConfigError
 
 __all__ = [
@@ -277,19 +278,45 @@ class SunTable:
         # complex128 so that np.take moves whole rows: nodes i and i+1 then share a cache line
         # (about 2x faster than separate columns, and 10x faster than 2-d fancy indexing;
         # see tests/benchmarks/bench_timing.py)
+        self.interpolation_error_bound_deg = (_OMEGA_EARTH * step_s) ** 2 / 16.0 / _DEG
+        # the table (≈ 0.15 s per year of nodes) comes from the disk cache when a valid entry
+        # exists (generator.cache; keyed by every input and the package code, bit-identical)
+        key = {"table": "sun-v1", **code_key(), "t_start": t_start, "t_stop": t_stop,
+               "latitude_deg": self.latitude_deg, "longitude_deg": self.longitude_deg,
+               "step_s": step_s, "n_check": self._MAX_CHECK_POINTS}
+        t = cached_arrays("sun", key, self._build_rows, self._validate_rows)
+        self._rows = t["rows"].view(np.complex128).ravel()
+        self.max_interpolation_error_deg = float(t["max_error_deg"])
+
+    def _build_rows(self) -> dict[str, np.ndarray]:
+        """Node rows (direction of travel, distance in AU; float32) and the measured error."""
         rows = np.empty((self.n_nodes, 4), dtype=np.float32)
         for lo in range(0, self.n_nodes, self._CHUNK):
             hi = min(lo + self._CHUNK, self.n_nodes)
             to_sun, _, dist = sun_position(
-                t_start + step_s * np.arange(lo, hi, dtype=np.float64),
+                self.t_start + self.step_s * np.arange(lo, hi, dtype=np.float64),
                 self.latitude_deg,
                 self.longitude_deg,
             )
             rows[lo:hi, :3] = -to_sun
             rows[lo:hi, 3] = dist
         self._rows = rows.view(np.complex128).ravel()
-        self.interpolation_error_bound_deg = (_OMEGA_EARTH * step_s) ** 2 / 16.0 / _DEG
-        self.max_interpolation_error_deg = self._measure_error()
+        return {"rows": rows, "max_error_deg": np.array(self._measure_error())}
+
+    def _validate_rows(self, arrays: dict[str, np.ndarray]) -> None:
+        """Loaded rows: shape, float32, unit directions, distance within the orbit's range."""
+        rows, err = arrays.get("rows"), arrays.get("max_error_deg")
+        if rows is None or err is None or set(arrays) != {"rows", "max_error_deg"}:
+            raise CacheRejected("rows or max_error_deg missing")
+        if rows.dtype != np.float32 or rows.shape != (self.n_nodes, 4) or err.shape != ():
+            raise CacheRejected(f"rows have shape {rows.shape} and dtype {rows.dtype}")
+        norm = np.einsum("ij,ij->i", rows[:, :3], rows[:, :3])
+        if not (np.all(np.abs(norm - 1.0) < 1e-5) and np.all(rows[:, 3] > 0.98)
+                and np.all(rows[:, 3] < 1.02)):   # perihelion 0.983, aphelion 1.017 AU
+            raise CacheRejected("directions not unit vectors or distances outside the orbit")
+        if not (np.isfinite(err) and 0.0 <= err <= 10 * self.interpolation_error_bound_deg
+                + 1e-6):
+            raise CacheRejected(f"measured interpolation error {err} deg is not plausible")
 
     def _measure_error(self) -> float:
         """Largest angle (degrees) between lookup and direct formula on cell mid-points."""

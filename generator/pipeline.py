@@ -210,7 +210,7 @@ def build_plan(cfg: Config) -> RunPlan:
                            solar_profile=cfg.oscillation.solar_profile)
 
     edges = np.linspace(-1.0, 1.0, N_ZENITH_BINS + 1)
-    wz = exposure.zenith_exposure(edges)            # s, ∫ dt (1 AU/r)² per cos-zenith bin
+    wz = _zenith_exposure(exposure, edges, det.latitude_deg, det.longitude_deg)
     centres = 0.5 * (edges[:-1] + edges[1:])
     w_total = float(wz.sum())
 
@@ -228,6 +228,24 @@ def build_plan(cfg: Config) -> RunPlan:
         raise _no_events_error(plans, n_e, exposure, ic.threshold_mev)
     return RunPlan(cfg, medium, fid, n_e, exposure, xs, recoil, flavour, pdgs, plans, total,
                    combined_cdf(expected, bg), edges, wz, response, bg)
+
+
+def _zenith_exposure(exposure: Exposure, edges: np.ndarray, latitude_deg: float,
+                     longitude_deg: float) -> np.ndarray:
+    """s, ∫ dt (1 AU/r)² per cos-zenith bin (:meth:`Exposure.zenith_exposure`), cached."""
+    total = exposure.live_seconds * exposure.mean_inverse_r2
+
+    def validate(arrays: dict[str, np.ndarray]) -> None:
+        _check_nonnegative(arrays, {"weights": (edges.size - 1,)})
+        if abs(float(arrays["weights"].sum()) - total) > 1e-6 * total:
+            raise CacheRejected("zenith weights do not add up to the flux-weighted live time")
+
+    key = {"table": "zenith-exposure-v1", **code_key(), "intervals": exposure.intervals,
+           "latitude_deg": latitude_deg, "longitude_deg": longitude_deg,
+           "step_s": exposure.table.step_s, "edges": edges}
+    return cached_arrays("exposure", key,
+                         lambda: {"weights": exposure.zenith_exposure(edges)},
+                         validate)["weights"]
 
 
 def _no_events_error(plans: list[SourcePlan], n_e: float, exposure: Exposure,

@@ -192,15 +192,17 @@ def test_events_identical_with_cold_and_warm_cache(tmp_path, monkeypatch, caplog
     monkeypatch.setenv("SUNRECOIL_CACHE", str(tmp_path))
     cold, s_cold = _events(tiny_config)
     names = sorted(p.name.split("_")[0] for p in tmp_path.glob("*.npz"))
-    assert {"recoil", "envelope", "zenith", "sunfrac"} <= set(names), names
+    assert {"recoil", "envelope", "zenith", "sunfrac", "sun", "exposure"} <= set(names), names
     with caplog.at_level(logging.WARNING, logger="generator.cache"):
         warm, s_warm = _events(tiny_config)
     assert not caplog.records
     assert s_cold.expected_events == s_warm.expected_events
     for k, v in cold.items():
         assert warm[k].dtype == v.dtype and warm[k].tobytes() == v.tobytes(), k
-    # planted plan tables with forged checksums: negative values are refused and rebuilt
-    for path in list(tmp_path.glob("envelope_*.npz")) + list(tmp_path.glob("zenith_*.npz")):
+    # planted tables with forged checksums (values negated): refused and rebuilt
+    planted = [p for f in ("envelope", "zenith", "sunfrac", "sun", "exposure")
+               for p in tmp_path.glob(f"{f}_*.npz")]
+    for path in planted:
         with np.load(path, allow_pickle=False) as f:
             data = {k: np.array(f[k]) for k in f.files}
         key = str(data["__key__"][()])
@@ -210,7 +212,7 @@ def test_events_identical_with_cold_and_warm_cache(tmp_path, monkeypatch, caplog
     caplog.clear()
     with caplog.at_level(logging.WARNING, logger="generator.cache"):
         again, s_again = _events(tiny_config)
-    assert sum("rejected" in r.getMessage() for r in caplog.records) >= 2
+    assert sum("rejected" in r.getMessage() for r in caplog.records) == len(planted)
     assert s_again.expected_events == s_cold.expected_events
     for k, v in cold.items():
         assert again[k].tobytes() == v.tobytes(), k
