@@ -244,35 +244,35 @@ class _PdfRatio:
     """f_B(E)/f_A(E) of two continuous spectra (0 where f_A = 0), vectorised.
 
     Both pdfs are linear between their grid nodes (:meth:`generator.spectra.Spectrum.pdf`);
-    when the grids are the same (the ⁸B variants share one) the cell is found once, by index
-    arithmetic on a uniform grid, instead of two binary searches.
+    when both use the same uniform grid (the ⁸B variants do) the cell is found once by index
+    arithmetic instead of two binary searches (equal to the pdfs to rounding).
     """
 
     def __init__(self, gen: Any, alt: Any) -> None:
         self.gen, self.alt = gen, alt
-        x, self.fg = gen.grid()
-        xa, self.fa = alt.grid()
-        self.shared = bool(np.array_equal(x, xa)) and x.size >= 2
-        self.x = x
+        x, fg = gen.grid()
+        xa, fa = alt.grid()
         h = np.diff(x)
-        self.uniform = self.shared and bool(np.all(np.abs(h - h.mean()) <= 1e-9 * h.mean()))
-        self.x0, self.inv_h = float(x[0]), float((x.size - 1) / (x[-1] - x[0]))
+        self.uniform = (bool(np.array_equal(x, xa)) and x.size >= 2
+                        and bool(np.all(np.abs(h - h.mean()) <= 1e-9 * h.mean())))
+        if self.uniform:
+            self.x0, self.inv_h, self.top = float(x[0]), float((x.size - 1) / (x[-1] - x[0])), \
+                float(x.size - 1)
+            # value and slope per cell (per unit of the cell coordinate u), last cell repeated
+            self.fg, self.dg = fg, np.append(np.diff(fg), 0.0)
+            self.fa, self.da = fa, np.append(np.diff(fa), 0.0)
 
     def __call__(self, e: np.ndarray) -> np.ndarray:
-        if not self.shared:
+        if not self.uniform:
             pg, pa = self.gen.pdf(e), self.alt.pdf(e)
         else:
-            x, n = self.x, self.x.size
-            if self.uniform:
-                i = np.clip(((e - self.x0) * self.inv_h).astype(np.intp), 0, n - 2)
-                i -= (e < x[i]) & (i > 0)                   # rounding at a node: the cell
-                i += (e >= x[i + 1]) & (i < n - 2)          # with x[i] <= e < x[i + 1]
-            else:
-                i = np.clip(np.searchsorted(x, e, side="right") - 1, 0, n - 2)
-            frac = (e - x[i]) / (x[i + 1] - x[i])
-            inside = (e >= x[0]) & (e <= x[-1])
-            pg = np.where(inside, self.fg[i] + frac * (self.fg[i + 1] - self.fg[i]), 0.0)
-            pa = np.where(inside, self.fa[i] + frac * (self.fa[i + 1] - self.fa[i]), 0.0)
+            u = (e - self.x0) * self.inv_h                  # cell coordinate, 0 … n − 1
+            i = np.clip(u.astype(np.intp), 0, self.fg.size - 2)
+            frac = u - i                  # continuous across nodes: rounding of i is harmless
+            pg = self.fg[i] + frac * self.dg[i]
+            pa = self.fa[i] + frac * self.da[i]
+            out = (u < 0.0) | (u > self.top)
+            pg[out] = 0.0
         ok = pg > 0
         return np.where(ok, pa / np.where(ok, pg, 1.0), 0.0)
 
@@ -329,6 +329,7 @@ class DensityRatio:
         self.xsec_gen, self.xsec_alt = _xsec(gen), alt_plan.xsec
         self.same_xsec = self.xsec_gen == self.xsec_alt
         self.flavour_alt = alt_plan.flavour
+        self._e_top: dict[tuple[int, str], float] = {}
         self.flavour_gen = None
         if gen.oscillation != alt.oscillation or any(
                 s.region_alt not in (None, s.region_gen) for s in self.sources):
@@ -398,7 +399,10 @@ class DensityRatio:
         rows = np.arange(sel.size)
         p = []
         for fm, region in ((self.flavour_gen, s.region_gen), (self.flavour_alt, s.region_alt)):
-            e = np.minimum(energy[sel], fm.day_table(region)[0][-1])
+            key = (id(fm), region)
+            if key not in self._e_top:
+                self._e_top[key] = float(fm.day_table(region)[0][-1])
+            e = np.minimum(energy[sel], self._e_top[key])
             p.append(fm.probabilities(region, e, cz)[rows, col])
         ok = p[0] > 0
         r[sel] *= np.where(ok, p[1] / np.where(ok, p[0], 1.0), 0.0)
