@@ -12,6 +12,7 @@ level spacing, ``1/2**16 ≈ 1.5e-5``, anywhere.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Sequence
 
 import numpy as np
@@ -112,15 +113,26 @@ class InverseCDFSampler:
         self.total = self.continuous_total + float(weights.sum())
         if not self.total > 0.0:
             raise ConfigError(f"sampler total weight must be > 0, got {self.total!r}")
-        if self.continuous_total > 0.0:
-            levels = np.linspace(0.0, self.continuous_total, (1 << GUIDE_BITS) + 1)
-            self._table = self._invert(levels)
-        else:
-            self._table = np.full((1 << GUIDE_BITS) + 1, x[0])
-        self._step = np.diff(self._table)
-        self._base = self._table[:-1].copy()
         self._line_cum = np.cumsum(weights) / self.total
         self._cont_prob = self.continuous_total / self.total
+
+    # The inverse table is built on first use (≈ 3 ms each): spectra and background branches
+    # that are never sampled in a run (most of them) then cost nothing at start-up.
+    @functools.cached_property
+    def _table(self) -> np.ndarray:
+        """Inverse CDF at the ``2**GUIDE_BITS + 1`` equally spaced probability levels."""
+        if self.continuous_total > 0.0:
+            levels = np.linspace(0.0, self.continuous_total, (1 << GUIDE_BITS) + 1)
+            return self._invert(levels)
+        return np.full((1 << GUIDE_BITS) + 1, self.x[0])
+
+    @functools.cached_property
+    def _step(self) -> np.ndarray:
+        return np.diff(self._table)
+
+    @functools.cached_property
+    def _base(self) -> np.ndarray:
+        return self._table[:-1].copy()
 
     def _invert(self, levels: np.ndarray) -> np.ndarray:
         """Exact inverse of the piecewise-quadratic CDF at the cumulative ``levels``."""
