@@ -10,6 +10,7 @@ import decimal
 import importlib
 import logging
 import os
+import signal
 import sys
 from collections.abc import Sequence
 from pathlib import Path
@@ -230,6 +231,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except SunrecoilError as exc:
         return _fail(f"sunrecoil: run failed: {exc}", 1, debug)
     except (signals.Interrupted, KeyboardInterrupt) as exc:
+        if signals.committed():      # the output is complete: end by the signal itself
+            signals.restore()
+            os.kill(os.getpid(), getattr(exc, "signum", signal.SIGINT))
         status = getattr(exc, "exit_status", 130)
         return _fail(f"sunrecoil: {exc or 'interrupted'}; partial output was removed", status,
                      debug)

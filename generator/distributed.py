@@ -59,7 +59,7 @@ def _run_shard(cfg: Any, path: str, n_events: int | None, entropy: int, index: i
     from .production import Shard
 
     s = generate(cfg, path, n_events=n_events, seed=entropy, force=True,
-                 shard=Shard(index, count))
+                 shard=Shard(index, count), threads=1)   # one worker per core already
     return s.n_events, s.expected_events, s.chunk_size, s.n_chunks
 
 

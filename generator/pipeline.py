@@ -39,6 +39,7 @@ expected events (signal + backgrounds) per generated event.
 from __future__ import annotations
 
 import logging
+import os
 import secrets
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -75,6 +76,10 @@ log = logging.getLogger(__name__)
 
 #: Spawn key of the stream used for the Poisson-fluctuated event count.
 COUNT_SPAWN_KEY = (1 << 31,)
+
+#: Upper limit of the default number of chunk-generation threads (each chunk in flight costs
+#: its temporaries, ≈ 90 MB at the default chunk size).
+MAX_DEFAULT_THREADS = 2
 
 #: Zenith-angle bins used for the deterministic exposure average of the flavour probabilities.
 N_ZENITH_BINS = 200
@@ -386,7 +391,7 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
              seed: int | None = None, force: bool = False, sink: Any | None = None,
              progress: Callable[[int], None] | None = None,
              on_start: Callable[[int], None] | None = None, shard: Shard | None = None,
-             resume: bool = False) -> RunSummary:
+             resume: bool = False, threads: int | None = None) -> RunSummary:
     """Generate events for a configuration and write them to an HDF5 file (or a given sink).
 
     Parameters
@@ -413,6 +418,9 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         Write only this shard's chunks (:func:`generator.production.work_range`).
     resume : bool
         Continue the killed run whose temporary file lies beside ``out``.
+    threads : int, optional
+        Threads that generate chunks (default :func:`default_threads`: the usable CPUs, at
+        most 2); the output does not depend on it.
 
     Raises
     ------
@@ -462,7 +470,8 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
                                 bg_rng)
             return stage.process(ev, entropy, k) if stage is not None else ev
 
-        run_chunks(sink, work, first, make, progress)
+        run_chunks(sink, work, first, make, progress,
+                   default_threads() if threads is None else threads)
         bgp = plan.backgrounds.isotopes if plan.backgrounds is not None else []
         codes = [sp.code for sp in plan.sources] + [p.iso.code for p in bgp]
         names = [sp.name for sp in plan.sources] + [p.iso.name for p in bgp]
@@ -482,6 +491,15 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         raise
     return RunSummary(result if own_sink else None, work.n_events, plan.expected_total,
                       entropy, work.chunk, work.k1 - work.k0, plan)
+
+
+def default_threads() -> int:
+    """Chunk-generation threads of :func:`generate` by default: usable CPUs, at most 2."""
+    try:
+        n = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):      # pragma: no cover - not Linux
+        n = os.cpu_count() or 1
+    return max(1, min(n, MAX_DEFAULT_THREADS))
 
 
 def memory_run(cfg: Config, n_events: int, seed: int) -> tuple[MemorySink, RunSummary]:

@@ -15,7 +15,9 @@ anywhere, in any order, and put together bit for bit:
 from __future__ import annotations
 
 import re
+from collections import deque
 from collections.abc import Callable, Mapping
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -186,12 +188,49 @@ def start_output(sink: Any, work: WorkRange, attrs: Mapping[str, Any], resume: b
 
 def run_chunks(sink: Any, work: WorkRange, first: int,
                make_chunk: Callable[[int, int], Mapping[str, np.ndarray]],
-               progress: Callable[[int], None] | None = None) -> None:
-    """Generate chunks ``first … k1-1`` with ``make_chunk(k, n)`` and write them in order."""
+               progress: Callable[[int], None] | None = None, threads: int = 1) -> None:
+    """Generate chunks ``first … k1-1`` with ``make_chunk(k, n)`` and write them in order.
+
+    With ``threads`` > 1 the chunks are made in a pool of that many threads (``make_chunk``
+    must then be a pure function of ``k`` and ``n``, as the generator's chunks are: each draws
+    only from its own seed sequence), at most ``threads`` chunks ahead of the one being
+    written; the file is the same as with one thread. numpy and zlib release the GIL in their
+    array loops, so the threads use several cores.
+    """
     if progress is not None and first > work.k0:
         progress(min(first * work.chunk, work.n_total) - work.event_start)
-    for k in range(first, work.k1):
-        m = work.chunk_events(k)
-        sink.write_chunk(make_chunk(k, m))
-        if progress is not None:
-            progress(m)
+    todo = iter(range(first, work.k1))
+    if threads <= 1 or work.k1 - first <= 1:
+        for k in todo:
+            m = work.chunk_events(k)
+            _write(sink, make_chunk(k, m), m, progress)
+        return
+    with ThreadPoolExecutor(threads, thread_name_prefix="sunrecoil-chunk") as pool:
+        ahead: deque[tuple[int, Future]] = deque()
+
+        def submit() -> None:
+            k = next(todo, None)
+            if k is not None:
+                m = work.chunk_events(k)
+                ahead.append((m, pool.submit(make_chunk, k, m)))
+
+        try:
+            for _ in range(threads):
+                submit()
+            while ahead:
+                m, job = ahead.popleft()
+                chunk = job.result()
+                submit()                       # keep the pool busy while this one is written
+                _write(sink, chunk, m, progress)
+                del chunk
+        except BaseException:
+            for _, job in ahead:
+                job.cancel()
+            raise
+
+
+def _write(sink: Any, chunk: Mapping[str, np.ndarray], m: int,
+           progress: Callable[[int], None] | None) -> None:
+    sink.write_chunk(chunk)
+    if progress is not None:
+        progress(m)

@@ -19,7 +19,8 @@ import signal
 import threading
 from collections.abc import Iterator
 
-__all__ = ["Interrupted", "install", "restore", "critical", "EXIT_STATUS"]
+__all__ = ["Interrupted", "install", "restore", "critical", "EXIT_STATUS", "raise_pending",
+           "note_committed", "committed"]
 
 #: Exit status per signal (128 + signal number, the shell convention).
 EXIT_STATUS = {signal.SIGINT: 130, signal.SIGTERM: 143}
@@ -40,6 +41,7 @@ class Interrupted(BaseException):
 
 _state = threading.local()
 _pending: list[int] = []
+_committed: list[bool] = []       # an output file was put under its final name since install()
 
 
 def _depth() -> int:
@@ -57,6 +59,7 @@ def install() -> None:
     """Route SIGINT and SIGTERM through :class:`Interrupted` (main thread only)."""
     if threading.current_thread() is not threading.main_thread():
         return
+    _committed.clear()
     for sig in (signal.SIGINT, signal.SIGTERM):
         signal.signal(sig, _handler)
 
@@ -81,3 +84,24 @@ def critical() -> Iterator[None]:
         signum = _pending[0]
         _pending.clear()
         raise Interrupted(signum)
+
+
+def raise_pending() -> None:
+    """Raise a signal recorded inside a :func:`critical` section now (e.g. before a rename)."""
+    if _pending:
+        signum = _pending[0]
+        _pending.clear()
+        raise Interrupted(signum)
+
+
+def note_committed() -> None:
+    """Record that an output file now stands complete under its final name."""
+    _committed.append(True)
+
+
+def committed() -> bool:
+    """True when an output was completed since :func:`install`.
+
+    An interrupt after that point must not claim that partial output was removed.
+    """
+    return bool(_committed)

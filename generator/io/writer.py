@@ -40,7 +40,7 @@ from .filters import DEFAULT_FILTER, encode_deflate, filter_spec
 from .lock import RunLock, temp_path_for
 from .preflight import check_existing
 from .schema import Field
-from .signals import critical
+from .signals import critical, note_committed, raise_pending
 
 #: Test hook (environment variable): after this many generator chunks the HDF5 file
 #: descriptor is pointed at /dev/full, so every later write fails with a real ENOSPC from HDF5.
@@ -398,7 +398,9 @@ class HDF5Sink:
             self._file.attrs[k] = v
         self._file.close()
         check_output_path(self.path, self.force)
+        raise_pending()               # an interrupt during the last writes: remove, not rename
         os.replace(self.tmp, self.path)
+        note_committed()
         self._lock.release()
         return self.path
 

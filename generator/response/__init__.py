@@ -19,6 +19,7 @@ Example
 
 from __future__ import annotations
 
+import threading
 from typing import Any
 
 import numpy as np
@@ -83,6 +84,7 @@ class ResponseStage:
         self.sun_dir = sun_dir
         self.n_generated = 0
         self.n_triggered = 0
+        self._count_lock = threading.Lock()   # chunks may be processed in several threads
 
     def process(self, ev: dict[str, np.ndarray], entropy: int, k: int
                 ) -> dict[str, np.ndarray]:
@@ -91,8 +93,9 @@ class ResponseStage:
         ev.update(self.model.sample(rng, ev, self.sun_dir))
         trig = ev["triggered"].view(bool)
         n_trig = int(np.count_nonzero(trig))
-        self.n_generated += trig.size
-        self.n_triggered += n_trig
+        with self._count_lock:
+            self.n_generated += trig.size
+            self.n_triggered += n_trig
         if self.model.keep_untriggered or n_trig == trig.size:
             return ev
         return {key: v[trig] for key, v in ev.items()}
