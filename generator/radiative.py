@@ -41,7 +41,6 @@ from __future__ import annotations
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy.special import spence
 
 from generator.constants import ALPHA, ELECTRON_MASS, MUON_MASS, TAU_MASS
 
@@ -212,6 +211,8 @@ def spence_l(x: ArrayLike) -> np.ndarray:
     numpy.ndarray
         L(x).
     """
+    from scipy.special import spence  # lazy: scipy.special is needed to build tables only
+
     return -spence(1.0 - np.asarray(x, dtype=np.float64))
 
 

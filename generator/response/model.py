@@ -41,7 +41,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-from scipy.special import erfc, gammaln, ndtr, pdtr, xlogy
 
 from ..errors import ConfigError
 from ..media import Medium
@@ -189,6 +188,8 @@ class ResponseModel:
         r = np.asarray(reco, dtype=np.float64)
         if w <= 0.0:
             return (r >= e50).astype(np.float64)
+        from scipy.special import erfc  # lazy: keeps the start-up free of scipy.special
+
         return 0.5 * erfc((e50 - r) / (math.sqrt(2.0) * w))
 
     # ------------------------------------------------------------------ sampling
@@ -324,6 +325,8 @@ class ResponseModel:
         extra = np.sqrt(s["a2_extra"] * g_t + s["b2"] * g_t**2)
         lam = mu_c + mu_s + d
         out = np.zeros((e_true.size, edges.size - 1))
+        from scipy.special import gammaln, ndtr, pdtr, xlogy  # lazy (start-up)
+
         for i in range(e_true.size):
             if lam[i] <= EXACT_POISSON_MAX:
                 half = 8.0 * math.sqrt(lam[i]) + 10.0
