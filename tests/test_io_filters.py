@@ -48,7 +48,7 @@ def default_file(small_config, tmp_path_factory) -> Path:
 
 @pytest.mark.parametrize(("dtype", "shape", "n"), [
     ("f4", (), 1), ("f4", (), 1001), ("f8", (), 4096), ("i2", (), 777), ("u1", (), 333),
-    ("f4", (3,), 2048), ("f8", (), 0),
+    ("f4", (3,), 2048), ("f8", (), 0), ("f4", (3,), 70000), ("u1", (), 16385),
 ])
 def test_fletcher32_matches_hdf5(tmp_path: Path, dtype: str, shape: tuple, n: int):
     """The checksum equals the one HDF5 appends to its own shuffle+deflate chunks."""
@@ -59,6 +59,23 @@ def test_fletcher32_matches_hdf5(tmp_path: Path, dtype: str, shape: tuple, n: in
                               compression_opts=1, fletcher32=True)
         _, raw = ds.id.read_direct_chunk((0,) * a.ndim)
     assert fletcher32(raw[:-4]).to_bytes(4, "little") == raw[-4:]
+
+
+@pytest.mark.parametrize("n", [0, 1, 2, 3, 16383, 16384, 16385, 16386, 100001, 1 << 21])
+@pytest.mark.parametrize("kind", ["random", "all-ones", "sparse"])
+def test_fletcher32_blocked_sums_equal_the_definition(n: int, kind: str):
+    """The blocked float64 sums give exactly sum1 = Σ w_i and sum2 = Σ (n − i) w_i, folded
+    into 1..65535 (the definition in the docstring of generator.io.filters.fletcher32)."""
+    rng = np.random.default_rng(n)
+    data = {"random": rng.integers(0, 256, n, dtype=np.uint8),
+            "all-ones": np.full(n, 255, np.uint8),
+            "sparse": (rng.random(n) < 0.01).astype(np.uint8) * 199}[kind]
+    padded = np.concatenate([data, np.zeros(n % 2, np.uint8)])
+    w = padded.view(">u2").astype(object)
+    s1 = int(sum(w)) if n else 0
+    s2 = int(sum(w * np.arange(w.size, 0, -1))) if n else 0
+    expected = 0 if s1 == 0 else (((s2 % 65535) or 65535) << 16) | ((s1 % 65535) or 65535)
+    assert fletcher32(data.tobytes()) == expected
 
 
 @pytest.mark.parametrize(("dtype", "shape"), [("f4", ()), ("f8", ()), ("i2", ()), ("u1", ()),
