@@ -71,6 +71,7 @@ import numpy as np
 from . import __version__, spectra
 from .config import Config, parse_config, to_toml
 from .errors import DataFileError, InputError
+from .io.preflight import check_target
 from .io.reader import EventFile
 from .kinematics import t_max
 from .oscillation import FlavourModel
@@ -86,6 +87,9 @@ REWEIGHT_LAYOUT_VERSION = "1"
 
 #: Event fields the reweighting reads.
 READ_FIELDS = ("origin", "nu_pdg", "nu_energy", "e_kinetic", "sun_cos_zenith", "weight")
+
+#: Bytes per event of the written weights (two float64 columns, uncompressed).
+WEIGHT_BYTES_PER_EVENT = 16.0
 
 #: Events per read chunk (bounded memory: about 60 bytes per event in flight).
 DEFAULT_CHUNK = 1 << 20
@@ -580,8 +584,12 @@ def reweight(event_file: str | Path, alternative: Config | str | Path,
     with ev:
         if append:
             _check_append_target(ev, name, force)
+            check_target(ev.path, True, ev.n_events, WEIGHT_BYTES_PER_EVENT)
+            if not os.access(ev.path, os.W_OK):
+                raise ReweightError(f"--append: {clip(str(ev.path))} is not writable")
         else:
             _check_side_target(Path(out), ev.path, force)
+            check_target(Path(out), force, ev.n_events, WEIGHT_BYTES_PER_EVENT)
         if isinstance(alternative, Config):
             alt = alternative
         else:
@@ -628,11 +636,8 @@ def reweight(event_file: str | Path, alternative: Config | str | Path,
 
 
 def _check_side_target(out: Path, event_path: Path, force: bool) -> None:
-    from .io.writer import check_output_path
-
     if out.exists() and out.resolve() == event_path.resolve():
         raise ReweightError(f"-o {clip(str(out))}: is the event file itself; use --append")
-    check_output_path(out, force)
 
 
 def _check_append_target(ev: EventFile, name: str, force: bool) -> None:

@@ -276,6 +276,14 @@ def test_cli_missing_and_foreign_files(tmp_path, capsys):
     (tmp_path / "text.h5").write_text("not hdf5")
     assert main(["reweight", str(tmp_path / "text.h5"), alt, "-o", str(out)]) == 2
     assert not out.exists()
+    good = tmp_path / "good.h5"
+    generate(_cfg(), good, n_events=1000, seed=8)
+    assert main(["reweight", str(good), alt, "-o", str(tmp_path / "no" / "w.h5")]) == 2
+    assert main(["reweight", str(good), alt, "-o", str(good)]) == 2        # the file itself
+    with pytest.raises(SystemExit) as exc:                                 # no -o / --append
+        main(["reweight", str(good)])
+    assert exc.value.code == 2
+    assert main(["reweight", str(good), "-o", str(out)]) == 2              # no ALT_CONFIG
     err = capsys.readouterr().err
     assert "no such event file" in err and "not a sunrecoil event file" in err
 
@@ -344,4 +352,38 @@ def test_backgrounds_kept_or_removed_and_oscillations_off(tmp_path, capsys):
         r = f["weights/ratio"][()]
     assert np.all(r[~is_bg & (ev["nu_pdg"] != 12)] == 0.0)
     assert np.all(r[~is_bg & (ev["nu_pdg"] == 12)] > 1.0)       # 1 / P_ee
+    assert abs(s.weight_sum - s.expected_events) < Z_MAX * s.weight_sum_mc_error
+
+
+def test_closure_solar_profile_and_no_earth_matter(file_a, tmp_path):
+    """Exponential solar density profile (Bahcall 1989 approximation, generator/solar_model.py)
+    and no Earth regeneration (night probabilities = day)."""
+    _closure(file_a, tmp_path, 16, oscillation={"solar_profile": "exponential",
+                                                "earth_matter": False})
+
+
+def test_custom_source_shape_and_flux(tmp_path):
+    """Custom table spectra (linear between rows): r = (Φ_B f_B)/(Φ_A f_A) at E (identity with
+    the tables written here: invented demo shapes)."""
+    e = np.linspace(5.0, 12.0, 8)
+    (tmp_path / "a.txt").write_text("".join(f"{x} {12.0 - x + 1.0}\n" for x in e))
+    (tmp_path / "b.txt").write_text("".join(f"{x} {x - 4.0}\n" for x in e))
+
+    def cfg(table, phi):
+        return _cfg(sources={"include": ["8B"], "custom": [
+            {"name": "demo", "spectrum_file": str(tmp_path / table), "flux": phi}]})
+
+    path = tmp_path / "c.h5"
+    generate(cfg("a.txt", 1.0e6), path, n_events=20_000, seed=9)
+    s = reweight(path, cfg("b.txt", 2.0e6), tmp_path / "w.h5")
+    with h5py.File(tmp_path / "w.h5", "r") as f:
+        r = f["weights/ratio"][()]
+    ev = _read(path)
+    mine = ev["origin"] == 9
+    x = ev["nu_energy"][mine].astype(float)
+    fa = (13.0 - x) / np.trapezoid(13.0 - e, e)
+    fb = (x - 4.0) / np.trapezoid(e - 4.0, e)
+    assert mine.sum() > 1000
+    assert np.allclose(r[mine], 2.0 * fb / fa, rtol=1e-9)
+    assert np.all(r[~mine] == 1.0)
     assert abs(s.weight_sum - s.expected_events) < Z_MAX * s.weight_sum_mc_error
