@@ -7,7 +7,7 @@ import logging
 import numpy as np
 import pytest
 
-from generator.cache import cached_arrays, content_digest, key_text
+from generator.cache import CacheRejected, cached_arrays, content_digest, key_text
 from generator.oscillation import PRESETS, FlavourModel
 
 KW = dict(latitude_deg=30.0, depth_m=500.0, e_min=4.0, e_max=6.0)
@@ -235,3 +235,22 @@ def test_spectrum_tables_from_cache_are_bit_identical(tmp_path, monkeypatch, cap
         again = _continuous_table(source, variant)
     assert any("rejected" in r.getMessage() for r in caplog.records)
     assert all(a.tobytes() == b.tobytes() for a, b in zip(fresh, again, strict=True))
+
+
+def test_constants_come_from_scipy_through_the_cache(tmp_path):
+    """The cached CODATA values equal scipy.constants exactly; edited entries are refused."""
+    import scipy.constants as sc
+
+    from generator import constants as c
+
+    assert c.ELECTRON_MASS == sc.physical_constants["electron mass energy equivalent in MeV"][0]
+    assert c.FERMI_CONSTANT == sc.physical_constants["Fermi coupling constant"][0] * 1e-6
+    assert c.AVOGADRO == sc.N_A and c.AU_CM == sc.au * 100.0
+    fresh = c._read_scipy_constants()
+    c._check_plausible(fresh)
+    edited = {"values": fresh["values"].copy()}
+    edited["values"][1] *= 1.0 + 1e-5                 # electron mass off by 10 ppm
+    with pytest.raises(CacheRejected):
+        c._check_plausible(edited)
+    with pytest.raises(CacheRejected):
+        c._check_plausible({"values": fresh["values"][:-1]})

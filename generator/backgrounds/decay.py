@@ -18,8 +18,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-from scipy.constants import N_A as _N_A  # Avogadro constant (exact, SI 2019)
-
+from ..constants import AVOGADRO as _N_A  # Avogadro constant (exact, SI 2019; scipy.constants)
 from ..constants import SECONDS_PER_DAY
 from .betashape import Branch
 

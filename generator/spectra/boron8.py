@@ -60,9 +60,15 @@ from dataclasses import dataclass
 from functools import cache
 
 import numpy as np
-import scipy.constants as _sc
 
-from generator.constants import ALPHA, ELECTRON_MASS, HBARC_MEV_FM
+from generator.constants import (
+    ALPHA,
+    ALPHA_PARTICLE_MASS,
+    ELECTRON_MASS,
+    HBARC_MEV_FM,
+    NEUTRON_MASS,
+    PROTON_MASS,
+)
 from generator.spectra.beta import fermi_function, nuclear_radius_fm
 
 __all__ = [
@@ -84,13 +90,10 @@ B8_Q_GROUND_MEV: float = 22.9216 - 4.94167 - 2.0 * ELECTRON_MASS
 BE8_GROUND_ABOVE_2ALPHA_MEV: float = 0.09184
 
 #: α-particle mass in MeV (CODATA via scipy.constants).
-_M_ALPHA: float = _sc.physical_constants["alpha particle mass energy equivalent in MeV"][0]
+_M_ALPHA: float = ALPHA_PARTICLE_MASS
 _MU: float = 0.5 * _M_ALPHA
 #: Nucleon mass M_N = (m_p + m_n)/2 in MeV for the weak-magnetism term (CODATA via scipy).
-_M_NUCLEON: float = 0.5 * (
-    _sc.physical_constants["proton mass energy equivalent in MeV"][0]
-    + _sc.physical_constants["neutron mass energy equivalent in MeV"][0]
-)
+_M_NUCLEON: float = 0.5 * (PROTON_MASS + NEUTRON_MASS)
 
 
 @dataclass(frozen=True)
