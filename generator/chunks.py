@@ -28,6 +28,8 @@ FLAVOUR_PDG = np.array([12, 14, 16], dtype=np.int16)
 def sigma_matrix(recoil: RecoilSampler, energy: np.ndarray, pdgs: tuple[int, ...]
                  ) -> np.ndarray:
     """σ_α(E) above threshold, shape (n, 3) in the e, μ, τ column order (cm²)."""
+    if tuple(pdgs) == tuple(recoil.pdgs):
+        return recoil.sigma_flavours(energy)
     out = np.zeros((energy.size, 3))
     for j, pdg in enumerate(pdgs):
         out[:, j] = recoil.sigma(energy, np.full(energy.size, pdg))
@@ -79,11 +81,19 @@ def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: floa
             d, cz, _ = plan.exposure.sun(t)
             p = plan.flavour.probabilities(sp.production_region, e, cz)
             w = p * sigma_matrix(plan.recoil, e, plan.pdgs)
-            acc = np.cumsum(w, axis=1) / sp.envelope(e)[:, None]
-            if np.any(acc[:, -1] > 1.0):       # impossible by construction (envelope.py)
-                raise _acceptance_error(sp, e, acc[:, -1])
+            # cumulative P_α σ_α / B over the three flavours, column by column (the same
+            # sums as a cumsum along the rows)
+            env = sp.envelope(e)
+            c0 = w[:, 0].copy()
+            c1 = c0 + w[:, 1]
+            c2 = c1 + w[:, 2]
+            acc_total = c2 / env
+            if np.any(acc_total > 1.0):       # impossible by construction (envelope.py)
+                raise _acceptance_error(sp, e, acc_total)
             v = rng.random(m)
-            choice = np.sum(v[:, None] >= acc, axis=1)
+            choice = (v >= c0 / env).astype(np.intp)
+            choice += v >= c1 / env
+            choice += v >= acc_total
             ok = np.flatnonzero(choice < len(plan.pdgs))[:pending.size]
             idx = pending[:ok.size]
             energy[idx] = e[ok]
@@ -94,7 +104,7 @@ def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: floa
             pending = pending[ok.size:]
     pdg = FLAVOUR_PDG[flav] if len(plan.pdgs) == 3 else np.full(n, pdg_arr[0], np.int16)
     t_e = plan.recoil.sample(rng, energy, pdg)
-    e_dir, _, _ = kinematics.scatter(rng, energy, t_e, nu_dir)
+    e_dir, _, _ = kinematics.scatter(rng, energy, t_e, nu_dir, final=False)
     out["time_utc"][sig] = times
     out["origin"][sig] = np.array([sp.code for sp in plan.sources], dtype=np.int16)[src]
     out["nu_pdg"][sig] = pdg

@@ -108,18 +108,14 @@ def orthonormal_basis(n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     tuple of numpy.ndarray
         ``(u, v)``, each shape (k, 3), with (u, v, n) right-handed and orthonormal.
     """
-    nx, ny, nz = n[:, 0], n[:, 1], n[:, 2]
-    sign = np.where(nz >= 0.0, 1.0, -1.0)
-    a = -1.0 / (sign + nz)
-    b = nx * ny * a
-    u = np.stack([1.0 + sign * nx * nx * a, sign * b, -sign * nx], axis=1)
-    v = np.stack([b, sign + ny * ny * a, -ny], axis=1)
-    return u, v
+    u, v = _basis_columns(n[:, 0], n[:, 1], n[:, 2])
+    return np.stack(u, axis=1), np.stack(v, axis=1)
 
 
 def scatter(
-    rng: np.random.Generator, energy: ArrayLike, t: ArrayLike, nu_dir: ArrayLike
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    rng: np.random.Generator, energy: ArrayLike, t: ArrayLike, nu_dir: ArrayLike,
+    final: bool = True,
+) -> tuple[np.ndarray, np.ndarray | None, np.ndarray | None]:
     """Build the final state of ν e⁻ → ν e⁻ for given neutrino energies and recoil energies.
 
     The electron polar angle follows from :func:`cos_theta_electron`; its azimuth around the
@@ -137,14 +133,17 @@ def scatter(
         Electron kinetic energies T in MeV, shape (n,), 0 ≤ T ≤ T_max(E).
     nu_dir : array_like
         Unit direction-of-travel vectors of the incoming neutrinos, shape (n, 3).
+    final : bool, optional
+        Also build the two 4-momenta (default); with False they are returned as None and
+        only the electron direction is computed (the same values).
 
     Returns
     -------
     electron_dir : numpy.ndarray
         Unit vectors of the electron momenta, shape (n, 3).
-    nu_out : numpy.ndarray
+    nu_out : numpy.ndarray or None
         Outgoing-neutrino 4-momenta [E', px, py, pz] in MeV, shape (n, 4).
-    electron : numpy.ndarray
+    electron : numpy.ndarray or None
         Electron 4-momenta [T + m, px, py, pz] in MeV, shape (n, 4).
 
     Raises
@@ -173,19 +172,35 @@ def scatter(
     n = n / norm[:, None]
     tt = np.minimum(tt, tm)
 
-    m = ELECTRON_MASS
-    p_e = np.sqrt(tt * (tt + 2.0 * m))
     cos_t = cos_theta_electron(e, tt)
     sin_t = np.sqrt(np.maximum(0.0, 1.0 - cos_t * cos_t))
     phi = 2.0 * np.pi * rng.random(k)
-    u, v = orthonormal_basis(n)
-    electron_dir = (
-        cos_t[:, None] * n
-        + (sin_t * np.cos(phi))[:, None] * u
-        + (sin_t * np.sin(phi))[:, None] * v
-    )
+    # ê = cos θ n̂ + sin θ cos φ û + sin θ sin φ v̂, one component at a time (the same
+    # arithmetic as with whole (k, 3) arrays, without the temporaries)
+    u, v = _basis_columns(n[:, 0], n[:, 1], n[:, 2])
+    a = sin_t * np.cos(phi)
+    b = sin_t * np.sin(phi)
+    electron_dir = np.empty((k, 3))
+    for c in range(3):
+        col = cos_t * n[:, c]
+        col += a * u[c]
+        col += b * v[c]
+        electron_dir[:, c] = col
+    if not final:
+        return electron_dir, None, None
+    p_e = np.sqrt(tt * (tt + 2.0 * ELECTRON_MASS))
     nu_out, electron = final_state(e, tt, n, electron_dir, p_e)
     return electron_dir, nu_out, electron
+
+
+def _basis_columns(nx: np.ndarray, ny: np.ndarray, nz: np.ndarray
+                   ) -> tuple[tuple[np.ndarray, ...], tuple[np.ndarray, ...]]:
+    """Components ((ux, uy, uz), (vx, vy, vz)) of :func:`orthonormal_basis` (same arithmetic)."""
+    sign = np.where(nz >= 0.0, 1.0, -1.0)
+    a = -1.0 / (sign + nz)
+    b = nx * ny * a
+    return ((1.0 + sign * nx * nx * a, sign * b, -sign * nx),
+            (b, sign + ny * ny * a, -ny))
 
 
 def final_state(energy: np.ndarray, t: np.ndarray, nu_dir: np.ndarray,

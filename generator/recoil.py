@@ -352,6 +352,41 @@ class RecoilSampler:
                 out = np.where(sel, self._line_sigma[fi, k], out)
         return out
 
+    def sigma_flavours(self, energy: ArrayLike) -> np.ndarray:
+        """:meth:`sigma` of every tabulated flavour at once, shape (n, 3) (cm²).
+
+        Column k holds ``sigma(energy, pdgs[k])`` bit for bit (the same arithmetic; the table
+        position and the interpolation weights are computed once for all flavours); columns
+        beyond ``len(pdgs)`` are zero.
+        """
+        e = np.asarray(energy, dtype=np.float64).reshape(-1)
+        if e.size and not e.max() <= self.e_max:
+            raise ConfigError(
+                f"energy {e.max():.6g} MeV above the tabulated maximum e_max = {self.e_max} MeV"
+            )
+        width = t_max(e) - self.t_min
+        pos = (np.log(np.maximum(width, _WIDTH_FLOOR)) - self._w0) * self._inv_dw
+        n_e = self.n_energy
+        i = np.clip(np.floor(pos).astype(np.intp) - 1, 0, n_e - 4)
+        s = pos - i
+        s = np.clip(s, 0.0, 3.0)
+        w0 = -(s - 1.0) * (s - 2.0) * (s - 3.0) / 6.0
+        w1 = s * (s - 2.0) * (s - 3.0) / 2.0
+        w2 = -s * (s - 1.0) * (s - 3.0) / 2.0
+        w3 = s * (s - 1.0) * (s - 2.0) / 6.0
+        live = (width > 0.0) & (e >= self.e_min)
+        scale = np.maximum(width, 0.0)
+        on_line = [(k, np.flatnonzero(e == line)) for k, line in enumerate(self.lines)]
+        out = np.zeros((e.size, 3))
+        for f in range(len(self.pdgs)):
+            r = self._ratio[f]
+            ratio = w0 * r[i] + w1 * r[i + 1] + w2 * r[i + 2] + w3 * r[i + 3]
+            col = np.where(live, ratio * scale, 0.0)
+            for k, sel in on_line:
+                col[sel] = self._line_sigma[f, k]
+            out[:, f] = col
+        return out
+
     @property
     def sigma_knots(self) -> np.ndarray:
         """Neutrino energies (MeV) where :meth:`sigma` changes interpolation segment.
