@@ -20,9 +20,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.constants import physical_constants
 
-from ..constants import ELECTRON_MASS
+from ..constants import ALPHA_PARTICLE_MASS, ELECTRON_MASS
 from ..errors import DataFileError
 from ..kinematics import final_state, on_cone_direction, t_max
 
@@ -38,7 +37,7 @@ PARTICLE_MASS: dict[int, float] = {
     11: ELECTRON_MASS,
     -11: ELECTRON_MASS,
     22: 0.0,
-    1000020040: physical_constants["alpha particle mass energy equivalent in MeV"][0],
+    1000020040: ALPHA_PARTICLE_MASS,
 }
 
 #: Fields an export needs.
