@@ -254,3 +254,31 @@ def test_constants_come_from_scipy_through_the_cache(tmp_path):
         c._check_plausible(edited)
     with pytest.raises(CacheRejected):
         c._check_plausible({"values": fresh["values"][:-1]})
+
+
+def test_beta_branch_tables_from_cache_are_bit_identical(tmp_path, monkeypatch, caplog):
+    from generator.backgrounds.betashape import Branch, BranchSampler
+
+    monkeypatch.setenv("SUNRECOIL_CACHE", str(tmp_path))
+    branches = (Branch(0.9, 1.2), Branch(0.1, 0.6, gamma_mev=0.6), Branch(0.0, 1.5, "line"))
+
+    def tables():
+        s = BranchSampler(branches, 20, 40)
+        return [x for sm in s.samplers if sm is not None for x in (sm.x, sm.density, sm._table)]
+
+    fresh = tables()
+    with caplog.at_level(logging.WARNING, logger="generator.cache"):
+        loaded = tables()
+    assert not caplog.records
+    assert all(a.tobytes() == b.tobytes() for a, b in zip(fresh, loaded, strict=True))
+    path = next(tmp_path.glob("betashape_*.npz"))
+    with np.load(path, allow_pickle=False) as f:
+        data = {k: np.array(f[k]) for k in f.files}
+    arrays = {k: v for k, v in data.items() if not k.startswith("__")}
+    arrays["d0"] = -arrays["d0"]                       # forged: negative density
+    np.savez(path, **arrays, __key__=data["__key__"],
+             __sha256__=np.array(content_digest(str(data["__key__"][()]), arrays)))
+    with caplog.at_level(logging.WARNING, logger="generator.cache"):
+        again = tables()
+    assert any("rejected" in r.getMessage() for r in caplog.records)
+    assert all(a.tobytes() == b.tobytes() for a, b in zip(fresh, again, strict=True))

@@ -28,10 +28,11 @@ Shape factors (W, W₀ and p in units of m_e c²; q = W₀ − W the neutrino en
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import asdict, dataclass
 
 import numpy as np
 
+from ..cache import CacheRejected, cached_arrays, check_arrays, code_key
 from ..constants import ELECTRON_MASS
 from ..errors import ConfigError
 from ..spectra.beta import electron_spectrum, fermi_function, nuclear_radius_fm
@@ -125,6 +126,34 @@ def mean_kinetic(b: Branch, z_daughter: int, a: int, positron: bool = False) -> 
     return float(np.trapezoid(t * d, t))
 
 
+def _branch_tables(branches: tuple[Branch, ...], z_daughter: int, a: int, positron: bool
+                   ) -> dict[str, np.ndarray]:
+    """:func:`branch_spectrum` of every non-line branch (``t<k>``, ``d<k>``), from the cache.
+
+    The Fermi function needs scipy.special (≈ 0.1 s of import); the tables go through
+    :mod:`generator.cache`, keyed by every branch and nucleus input and the package code, and a
+    loaded table is bit-identical to a fresh one.
+    """
+    shaped = [k for k, b in enumerate(branches) if b.shape != "line"]
+
+    def build() -> dict[str, np.ndarray]:
+        out: dict[str, np.ndarray] = {}
+        for k in shaped:
+            out[f"t{k}"], out[f"d{k}"] = branch_spectrum(branches[k], z_daughter, a, positron)
+        return out
+
+    def validate(arrays: dict[str, np.ndarray]) -> None:
+        check_arrays(arrays, {f"{c}{k}": (GRID_POINTS,) for k in shaped for c in "td"})
+        if any(np.any(np.diff(arrays[f"t{k}"]) < 0.0) or arrays[f"d{k}"].min() < 0.0
+               for k in shaped):
+            raise CacheRejected("branch grid decreasing or negative density")
+
+    key = {"table": "betashape-v1", **code_key(), "branches": [asdict(b) for b in branches],
+           "z_daughter": int(z_daughter), "a": int(a), "positron": bool(positron),
+           "points": GRID_POINTS}
+    return cached_arrays("betashape", key, build, validate)
+
+
 class BranchSampler:
     """Draws (branch index, kinetic energy, γ energy) for the branches of one isotope.
 
@@ -147,9 +176,10 @@ class BranchSampler:
         self.cdf = np.cumsum(self.probability)
         self.cdf[-1] = 1.0
         self.gamma = np.array([b.gamma_mev for b in self.branches])
+        tables = _branch_tables(self.branches, z_daughter, a, positron)
         self.samplers = [None if b.shape == "line" else
-                         InverseCDFSampler(*branch_spectrum(b, z_daughter, a, positron))
-                         for b in self.branches]
+                         InverseCDFSampler(tables[f"t{k}"], tables[f"d{k}"])
+                         for k, b in enumerate(self.branches)]
 
     @property
     def mean_kinetic_mev(self) -> float:
