@@ -379,13 +379,14 @@ class DensityRatio:
             r[sel] = f
             if self.flavour_gen is not None:
                 self._flavour(r, sel, s, energy, ev)
-        sig = np.flatnonzero((idx >= 0) & (r > 0))
-        if not self.same_xsec and sig.size:
+        if not self.same_xsec:
+            live = (idx >= 0) & (r > 0)
+            sig: Any = slice(None) if live.all() else np.flatnonzero(live)   # skip the gathers
             e = energy[sig]
             t = np.asarray(ev["e_kinetic"])[sig].astype(np.float64)
-            t = np.minimum(t, t_max(e) * (1.0 - 1e-6))    # float32 rounding above T_max(E)
-            pdg = np.asarray(ev["nu_pdg"])[sig]
-            d_gen, d_alt = _dsigma_pair(e, t, pdg, self.xsec_gen, self.xsec_alt)
+            np.minimum(t, t_max(e) * (1.0 - 1e-6), out=t)  # float32 rounding above T_max(E)
+            d_gen, d_alt = _dsigma_pair(e, t, np.asarray(ev["nu_pdg"])[sig], self.xsec_gen,
+                                        self.xsec_alt)
             ok = d_gen > 0
             r[sig] *= np.where(ok, d_alt / np.where(ok, d_gen, 1.0), 0.0)
         if self.threshold is not None:

@@ -387,3 +387,17 @@ def test_custom_source_shape_and_flux(tmp_path):
     assert np.allclose(r[mine], 2.0 * fb / fa, rtol=1e-9)
     assert np.all(r[~mine] == 1.0)
     assert abs(s.weight_sum - s.expected_events) < Z_MAX * s.weight_sum_mc_error
+
+
+def test_generated_flavour_tables_are_the_generators(file_a):
+    """The ratio's own FlavourModel for the generated configuration gives the same
+    probabilities as the one build_plan made for the run (identity, same tables)."""
+    from generator.reweight import _flavour_model
+
+    plan = file_a[1].plan
+    fm = _flavour_model(plan.config)
+    rng = np.random.default_rng(3)
+    e, cz = rng.uniform(0.1, 18.0, 5000), rng.uniform(-1.0, 1.0, 5000)
+    for region in ("8B", "hep"):
+        assert np.array_equal(fm.probabilities(region, e, cz),
+                              plan.flavour.probabilities(region, e, cz))
