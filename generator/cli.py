@@ -26,7 +26,8 @@ log = logging.getLogger("generator")
 
 #: Commands implemented in ``generator/commands/<name>.py``; each module provides
 #: ``add_parser(subparsers)`` (which sets ``run=<function(args) -> int>`` as a default).
-COMMAND_MODULES: tuple[str, ...] = ("check", "merge", "rates", "export", "reweight")
+COMMAND_MODULES: tuple[str, ...] = ("check", "merge", "rates", "export", "reweight",
+                                     "sensitivity")
 
 
 class _Parser(argparse.ArgumentParser):

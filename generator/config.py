@@ -2,7 +2,8 @@
 
 Sections ``[detector]``, ``[exposure]``, ``[sources]``, ``[oscillation]``, ``[interaction]``,
 ``[run]``, ``[output]``, and the optional ``[response]`` and ``[media.<name>]`` (parsed in
-:mod:`generator.response.config`) and ``[backgrounds]`` (:mod:`generator.backgrounds.config`).
+:mod:`generator.response.config`), ``[backgrounds]`` (:mod:`generator.backgrounds.config`) and
+``[sensitivity]`` (:mod:`generator.sensitivity_config`, used by ``sunrecoil sensitivity``).
 The embedded default (``generator/data/default.toml``, a fictional mid-size water-Cherenkov
 detector at a fictional site) is used when no file is given; a user file is merged over it key
 by key (for ``[exposure]`` a file that sets any of ``stop_utc``, ``live_days`` or ``run_list``
@@ -159,6 +160,7 @@ class Config:
     media: tuple = ()                 # generator.response.config.MediumConfig entries
     backgrounds: Any = None           # generator.backgrounds.config.BackgroundsConfig
     source_file: str | None = None
+    sensitivity: Any = None           # generator.sensitivity_config.SensitivityConfig
 
 
 # --------------------------------------------------------------------------- value checks
@@ -447,9 +449,10 @@ def parse_config(data: dict, base_dir: Path | None = None, source_file: str | No
         Naming the key path, the bad value and what is allowed.
     """
     known = ("detector", "exposure", "sources", "oscillation", "interaction", "run", "output")
-    optional = ("response", "media", "backgrounds")
+    optional = ("response", "media", "backgrounds", "sensitivity")
     from .backgrounds.config import check_vessels, parse_backgrounds
     from .response.config import parse_media, parse_response
+    from .sensitivity_config import parse_sensitivity
 
     for k in [k for k in data if k not in optional]:
         if k in RESERVED_SECTIONS:
@@ -476,6 +479,7 @@ def parse_config(data: dict, base_dir: Path | None = None, source_file: str | No
         media=media,
         backgrounds=backgrounds,
         source_file=source_file,
+        sensitivity=parse_sensitivity(data.get("sensitivity"), base_dir),
     )
 
 

@@ -54,7 +54,7 @@ def to_toml(cfg: Any) -> str:
     """Write the effective configuration as TOML text (round-trips through :func:`parse_config`)."""
     lines: list[str] = []
     for section in fields(cfg):
-        if section.name in ("source_file", "response", "media", "backgrounds"):
+        if section.name in ("source_file", "response", "media", "backgrounds", "sensitivity"):
             continue
         obj = getattr(cfg, section.name)
         lines.append(f"[{section.name}]")
@@ -82,6 +82,8 @@ def to_toml(cfg: Any) -> str:
         lines.append("")
     from .backgrounds.config import backgrounds_toml_lines
     from .response.config import media_toml_lines, response_toml_lines
+    from .sensitivity_config import sensitivity_toml_lines
 
     return "\n".join(lines + response_toml_lines(cfg.response) + media_toml_lines(cfg.media)
-                     + backgrounds_toml_lines(cfg.backgrounds))
+                     + backgrounds_toml_lines(cfg.backgrounds)
+                     + sensitivity_toml_lines(cfg.sensitivity))
