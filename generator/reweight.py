@@ -294,12 +294,18 @@ class DensityRatio:
         Origin code of every generated source (the file's ``sources/code``).
     alt_plan : generator.pipeline.RunPlan
         The plan of the alternative (B), from :func:`generator.pipeline.build_plan`.
+    intervals : ndarray, optional
+        The generated live periods (the file's ``exposure/intervals``, UTC s); B's must be the
+        same (checked here when given; :func:`reweight` always checks). The exposure is
+        compared by its intervals, so a run list moved to another path is accepted.
     """
 
     def __init__(self, gen: Config, gen_flux: dict[str, float], source_codes: dict[str, int],
-                 alt_plan: Any) -> None:
+                 alt_plan: Any, intervals: np.ndarray | None = None) -> None:
         alt = alt_plan.config
         self.changes = check_reweightable(gen, alt)
+        if intervals is not None:
+            _check_exposure(intervals, alt_plan)
         self.alt_plan = alt_plan
         alt_src = {sp.name: sp for sp in alt_plan.sources}
         self.sources: list[_SourceRatio] = []
@@ -443,6 +449,13 @@ def _weak(e: np.ndarray, t: np.ndarray, pdg: np.ndarray, model: XsecModel, terms
 
     terms = _qed_terms(model, e, t) if terms is None else terms
     return np.maximum(_combine(model, e, t, pdg, terms), 0.0), terms
+
+
+def _check_exposure(intervals: np.ndarray, plan: Any) -> None:
+    if not np.array_equal(np.asarray(intervals), plan.exposure.intervals):
+        raise ReweightError("cannot reweight to the alternative: the exposure window or run "
+                            "list changed; the event times and the Earth–Sun distances belong "
+                            "to the generated exposure")
 
 
 def _flavour_model(cfg: Config) -> FlavourModel:
@@ -600,10 +613,7 @@ def reweight(event_file: str | Path, alternative: Config | str | Path,
         if plan.config != alt:
             raise ReweightError("reweight: alt_plan was built from another configuration")
         intervals = np.asarray(ev.table("exposure/intervals"))
-        if not np.array_equal(intervals, plan.exposure.intervals):
-            raise ReweightError("cannot reweight to the alternative: the exposure window or "
-                                "run list changed; the event times and the Earth–Sun distances "
-                                "belong to the generated exposure")
+        _check_exposure(intervals, plan)
         names = [str(_dec(x)) for x in ev.table("sources/name")]
         codes = dict(zip(names, (int(c) for c in ev.table("sources/code")), strict=True))
         flux = dict(zip(names, (float(x) for x in ev.table("sources/flux")), strict=True))

@@ -199,6 +199,9 @@ def _alt_file(tmp_path, text, name="alt.toml"):
     ("[interaction]\nthreshold_mev = 3.0\n", "threshold_mev lowered"),
     ("[response]\nenabled = true\n", "[response]"),
     ("[backgrounds]\nenabled = true\n", "[backgrounds]"),
+    ("[interaction]\nthreshold_mev = -1.0\n", "interaction.threshold_mev"),
+    ("[oscillation]\nsin2_theta12 = \"x\"\n", "oscillation.sin2_theta12"),
+    ("[sources\n", "invalid TOML"),
 ])
 def test_cli_refuses_unreweightable_changes(file_a, tmp_path, capsys, text, msg):
     out = tmp_path / "w.h5"
@@ -401,3 +404,24 @@ def test_generated_flavour_tables_are_the_generators(file_a):
     for region in ("8B", "hep"):
         assert np.array_equal(fm.probabilities(region, e, cz),
                               plan.flavour.probabilities(region, e, cz))
+
+
+def test_run_list_compared_by_its_intervals(tmp_path, capsys):
+    """A run list copied to another path is the same exposure (accepted); one run more is
+    another exposure (refused)."""
+    runs = "start_utc,stop_utc\n2031-04-01T00:00:00Z,2031-04-03T12:00:00Z\n" \
+           "2031-05-01T06:00:00Z,2031-05-20T18:00:00Z\n"
+    (tmp_path / "runs.csv").write_text(runs)
+    (tmp_path / "moved.csv").write_text(runs)
+    (tmp_path / "more.csv").write_text(runs + "2031-06-01T00:00:00Z,2031-06-02T00:00:00Z\n")
+    from generator.config import load_config
+
+    path = tmp_path / "r.h5"
+    gen = _alt_file(tmp_path, "[sources]\ninclude = [\"8B\"]\n[response]\nenabled = false\n"
+                    f"[exposure]\nrun_list = \"{tmp_path / 'runs.csv'}\"\n", "gen.toml")
+    generate(load_config(gen), path, n_events=5000, seed=10)
+    for name, status in (("moved.csv", 0), ("more.csv", 2)):
+        alt = _alt_file(tmp_path, f"[exposure]\nrun_list = \"{tmp_path / name}\"\n"
+                        "[interaction]\ncorrections = \"tree\"\n")
+        assert main(["reweight", str(path), alt, "-o", str(tmp_path / f"w_{name}.h5")]) == status
+    assert "exposure window or run list changed" in capsys.readouterr().err

@@ -56,13 +56,14 @@ def main(n: int) -> None:
                      for x in ev.table("sources/name")]
             codes = dict(zip(names, (int(c) for c in ev.table("sources/code")), strict=True))
             flux = dict(zip(names, (float(x) for x in ev.table("sources/flux")), strict=True))
+            intervals = ev.table("exposure/intervals")
         for label, text in CHANGES.items():
             (d / "alt.toml").write_text(text)
             alt = load_alternative(d / "alt.toml", cfg)
             c0 = time.process_time()
             plan = build_plan(alt)
             c1 = time.process_time()
-            ratio = DensityRatio(cfg, flux, codes, plan)
+            ratio = DensityRatio(cfg, flux, codes, plan, intervals)
             c2 = time.process_time()
             chunk = {k: v[: 1 << 20] for k, v in events.items()}
             t0 = time.process_time()
