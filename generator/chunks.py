@@ -65,12 +65,40 @@ def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: floa
         plan.backgrounds.fill(out, bkg, src[bkg] - n_src, bg_rng, plan.fiducial,
                               plan.exposure.sun, weight)
         src, n = src[sig], sig.size
+    energy, times, flav, nu_dir, cosz = _draw_neutrinos(plan, rng, src, n)
+    pdg_arr = np.array(plan.pdgs)
+    pdg = FLAVOUR_PDG[flav] if len(plan.pdgs) == 3 else np.full(n, pdg_arr[0], np.int16)
+    t_e = plan.recoil.sample(rng, energy, pdg)
+    e_dir, _, _ = kinematics.scatter(rng, energy, t_e, nu_dir, final=False)
+    out["time_utc"][sig] = times
+    out["origin"][sig] = np.array([sp.code for sp in plan.sources], dtype=np.int16)[src]
+    out["nu_pdg"][sig] = pdg
+    out["nu_energy"][sig] = energy
+    out["nu_dir"][sig] = nu_dir
+    out["e_kinetic"][sig] = t_e
+    out["e_dir"][sig] = e_dir
+    out["vertex"][sig] = plan.fiducial.sample(rng, n)
+    out["cos_sun"][sig] = np.einsum("ij,ij->i", e_dir, nu_dir)
+    out["sun_cos_zenith"][sig] = cosz
+    out["is_night"][sig] = cosz < 0.0
+    out["weight"][sig] = weight
+    out["particle"][sig] = 11
+    out["gamma_energy"][sig] = 0.0
+    return out
+
+
+def _draw_neutrinos(plan: RunPlan, rng: np.random.Generator, src: np.ndarray, n: int
+                    ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """(E, t, flavour index, ν direction, cos θ_z) of the ``n`` signal events of sources ``src``.
+
+    Exact rejection sampling from the proposal f_s(E) B(E) (1 AU/r)² (see generator.pipeline);
+    its candidate arrays are freed on return, before the recoil stage allocates its own.
+    """
     energy = np.empty(n)
     times = np.empty(n)
     flav = np.empty(n, dtype=np.intp)
     nu_dir = np.empty((n, 3))
     cosz = np.empty(n)
-    pdg_arr = np.array(plan.pdgs)
     for s, sp in enumerate(plan.sources):
         pending = np.flatnonzero(src == s)
         while pending.size:
@@ -102,24 +130,8 @@ def generate_chunk(plan: RunPlan, rng: np.random.Generator, n: int, weight: floa
             nu_dir[idx] = d[ok]
             cosz[idx] = cz[ok]
             pending = pending[ok.size:]
-    pdg = FLAVOUR_PDG[flav] if len(plan.pdgs) == 3 else np.full(n, pdg_arr[0], np.int16)
-    t_e = plan.recoil.sample(rng, energy, pdg)
-    e_dir, _, _ = kinematics.scatter(rng, energy, t_e, nu_dir, final=False)
-    out["time_utc"][sig] = times
-    out["origin"][sig] = np.array([sp.code for sp in plan.sources], dtype=np.int16)[src]
-    out["nu_pdg"][sig] = pdg
-    out["nu_energy"][sig] = energy
-    out["nu_dir"][sig] = nu_dir
-    out["e_kinetic"][sig] = t_e
-    out["e_dir"][sig] = e_dir
-    out["vertex"][sig] = plan.fiducial.sample(rng, n)
-    out["cos_sun"][sig] = np.einsum("ij,ij->i", e_dir, nu_dir)
-    out["sun_cos_zenith"][sig] = cosz
-    out["is_night"][sig] = cosz < 0.0
-    out["weight"][sig] = weight
-    out["particle"][sig] = 11
-    out["gamma_energy"][sig] = 0.0
-    return out
+            del e, t, d, cz, p, w, env, c0, c1, c2, acc_total, v, choice   # before the next batch
+    return energy, times, flav, nu_dir, cosz
 
 
 def _acceptance_error(sp: SourcePlan, energy: np.ndarray, acc: np.ndarray) -> SamplingError:

@@ -193,9 +193,10 @@ def run_chunks(sink: Any, work: WorkRange, first: int,
 
     With ``threads`` > 1 the chunks are made in a pool of that many threads (``make_chunk``
     must then be a pure function of ``k`` and ``n``, as the generator's chunks are: each draws
-    only from its own seed sequence), at most ``threads`` chunks ahead of the one being
-    written; the file is the same as with one thread. numpy and zlib release the GIL in their
-    array loops, so the threads use several cores.
+    only from its own seed sequence); at most ``threads`` chunks are in memory, counting the
+    one being written (the next is started when a chunk has been handed to the sink, whose
+    encoder threads keep the cores busy meanwhile). The file is the same as with one thread.
+    numpy and zlib release the GIL in their array loops, so the threads use several cores.
     """
     if progress is not None and first > work.k0:
         progress(min(first * work.chunk, work.n_total) - work.event_start)
@@ -220,9 +221,9 @@ def run_chunks(sink: Any, work: WorkRange, first: int,
             while ahead:
                 m, job = ahead.popleft()
                 chunk = job.result()
-                submit()                       # keep the pool busy while this one is written
                 _write(sink, chunk, m, progress)
                 del chunk
+                submit()
         except BaseException:
             for _, job in ahead:
                 job.cancel()
