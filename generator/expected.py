@@ -159,11 +159,16 @@ def window_sigma(model: Any, energy: np.ndarray, pdgs: tuple[int, ...], t_thresh
 
 
 def reco_window_sigma(model: Any, energy: np.ndarray, pdgs: tuple[int, ...],
-                      t_threshold: float, t_grid: np.ndarray, matrix: np.ndarray) -> np.ndarray:
+                      t_threshold: float, t_grid: np.ndarray, matrix: np.ndarray,
+                      exact: Any = None) -> np.ndarray:
     """∫_{T_th}^{T_max(E)} dσ_α/dT(E, T) P(bin j | T) dT for reconstructed-energy bins (cm²).
 
     The probability matrix (tabulated on ``t_grid``, smooth in T) is interpolated linearly at
-    the Gauss–Legendre nodes of :func:`generator.xsec.quadrature_nodes`.
+    the Gauss–Legendre nodes of :func:`generator.xsec.quadrature_nodes`. For a few energies
+    (the lines of a source) pass ``exact``, a function T → P(bin | T) of shape (n, k), to
+    evaluate it at every node instead: a line's recoil spectrum ends sharply at T_max, and the
+    reconstructed spectrum above that edge is a resolution tail, convex in T, which linear
+    interpolation on a grid coarser than ~σ/10 overestimates.
 
     Parameters
     ----------
@@ -192,8 +197,12 @@ def reco_window_sigma(model: Any, energy: np.ndarray, pdgs: tuple[int, ...],
         nodes, wts = quadrature_nodes(e, t_threshold, QUAD_PANELS)
         ds = dsigma_dt_flavours(e[:, None], nodes, codes, model) * wts[None]
         flat = nodes.ravel()
-        m = np.stack([np.interp(flat, t_grid, matrix[:, k]) for k in range(matrix.shape[1])],
-                     axis=1).reshape(nodes.shape + (matrix.shape[1],))
+        if exact is not None:
+            m = np.asarray(exact(flat)).reshape(nodes.shape + (matrix.shape[1],))
+        else:
+            m = np.stack([np.interp(flat, t_grid, matrix[:, k])
+                          for k in range(matrix.shape[1])],
+                         axis=1).reshape(nodes.shape + (matrix.shape[1],))
         for c, j in enumerate(cols):
             out[a:a + 256, :, j] = np.einsum("ig,igk->ik", ds[c], m)
     return out

@@ -29,14 +29,12 @@ from .errors import ConfigError
 from .expected import reco_window_sigma, window_sigma, zenith_flavour_table
 
 __all__ = ["RATES_SCHEMA", "RATES_SCHEMA_VERSION", "Rates", "compute_rates", "with_threshold",
-           "to_dict", "check_edges", "FLAVOUR_GROUPS", "RECO_T_POINTS"]
+           "to_dict", "check_edges", "FLAVOUR_GROUPS"]
 
 RATES_SCHEMA = "sunrecoil.rates"
 RATES_SCHEMA_VERSION = 2   # 2: optional "backgrounds" block
 #: Arriving-flavour groups reported: columns of the (e, μ, τ) tables summed.
 FLAVOUR_GROUPS = {"nu_e": (0,), "nu_mu_tau": (1, 2)}
-#: Nodes of the true-energy grid on which the response matrix is tabulated.
-RECO_T_POINTS = 400
 
 
 def check_edges(edges: Any, key: str, lo: float | None = None, hi: float | None = None,
@@ -161,8 +159,27 @@ def _reco_matrix(plan: Any, edges: np.ndarray, t_lo: float) -> tuple[np.ndarray,
         raise ConfigError("reco_edges: windows of reconstructed energy need the detector "
                           "response; set [response] enabled = true")
     t_hi = float(plan.recoil.e_max)          # T_max < E_max
-    t_grid = np.linspace(t_lo, t_hi, RECO_T_POINTS)
+    # nodes spaced by a fraction of the resolution (convex tails, see resolution_grid)
+    t_grid = plan.response.resolution_grid(t_lo, t_hi)
     return t_grid, plan.response.energy_matrix(t_grid, edges, 11)
+
+
+def _reco_sigma(plan: Any, sp: Any, e: np.ndarray, t_th: float, r_e: np.ndarray,
+                matrix: tuple[np.ndarray, np.ndarray]) -> np.ndarray:
+    """Reco-window cross sections of one source's quadrature nodes (n, k, 3), cm².
+
+    Continuous-spectrum nodes use the tabulated response matrix; line energies evaluate it at
+    every T node (see :func:`generator.expected.reco_window_sigma`).
+    """
+    lines = np.isin(e, np.array([en for en, _ in sp.lines], dtype=np.float64))
+    out = np.zeros((e.size, r_e.size - 1, 3))
+    if (~lines).any():
+        out[~lines] = reco_window_sigma(plan.xsec, e[~lines], plan.pdgs, t_th, *matrix)
+    if lines.any():
+        out[lines] = reco_window_sigma(
+            plan.xsec, e[lines], plan.pdgs, t_th, *matrix,
+            exact=lambda t: plan.response.energy_matrix(t, r_e, 11))
+    return out
 
 
 def compute_rates(cfg: Config, *, threshold: float | None = None, t_edges: Any = None,
@@ -219,7 +236,7 @@ def compute_rates(cfg: Config, *, threshold: float | None = None, t_edges: Any =
                 tabs[key].append(np.zeros((edges.size - 1, n_bins, 3)))
                 continue
             sig = (window_sigma(plan.xsec, e, plan.pdgs, t_th, t_e) if key == "t" else
-                   reco_window_sigma(plan.xsec, e, plan.pdgs, t_th, *matrix))
+                   _reco_sigma(plan, sp, e, t_th, r_e, matrix))
             tabs[key].append(scale * zenith_flavour_table(plan.flavour, sp.production_region,
                                                           e, w, sig, centres, wz))
     if t_e is not None:

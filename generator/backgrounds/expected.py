@@ -12,7 +12,9 @@ detector response's probability of a triggered event reconstructed in window j
 (:meth:`generator.response.model.ResponseModel.energy_matrix`, the same light model the
 generator samples). The integral over T uses the sampler's own piecewise-linear density on
 its grid (the density the generator draws from, :class:`generator.spectra.sampling.
-InverseCDFSampler`), refined ``REFINE`` times, with the trapezoidal rule.
+InverseCDFSampler`), refined ``REFINE`` times, with the trapezoidal rule; the response matrix
+is evaluated on nodes spaced by a fraction of the resolution
+(:meth:`~generator.response.model.ResponseModel.resolution_grid`) and interpolated linearly.
 
 Background events are isotropic, so their cos θ_sun density is uniform on [−1, 1]
 (sensitivity templates use this directly).
@@ -30,12 +32,6 @@ __all__ = ["window_counts", "branch_window_fractions", "REFINE"]
 
 #: Sub-intervals per grid interval of a β branch in the window integrals.
 REFINE = 4
-#: Spacing (MeV) and bounds of the number of nodes on which a branch's response matrix is
-#: evaluated, then interpolated linearly in T (≤ 3e-4 of the largest window against 400 nodes
-#: for the demo configs; the lower bound keeps short spectra such as ¹⁴C's finely sampled where
-#: the resolution is narrowest).
-MATRIX_STEP_MEV = 0.05
-MATRIX_POINTS = (40, 160)
 
 
 def _edges(edges: Any, reco: bool = False) -> np.ndarray:
@@ -100,8 +96,10 @@ def branch_window_fractions(sampler: Any, particle: np.ndarray | int, edges: Any
         # primaries, the electron tables for e∓ and for the kinetic part of a γ branch (0),
         # plus the accompanying γ deposit as one electron of that energy
         kind = int(pdg) if int(pdg) == PDG_ALPHA else 11
-        n_nodes = int(np.clip(np.ceil((t[-1] - t[0]) / MATRIX_STEP_MEV) + 1, *MATRIX_POINTS))
-        nodes = t if t.size <= n_nodes else np.linspace(t[0], t[-1], n_nodes)
+        nodes = response.resolution_grid(float(t[0]), float(t[-1]), particle=kind,
+                                         gamma_energy=g) if t.size > 1 else t
+        if nodes.size >= t.size:
+            nodes = t
         m = response.energy_matrix(nodes, e, kind, gamma_energy=g)
         if nodes is not t:
             m = np.stack([np.interp(t, nodes, m[:, k]) for k in range(m.shape[1])], axis=1)

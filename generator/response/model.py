@@ -58,6 +58,10 @@ TABLE_POINTS = 12001
 G_NEGATIVE_MEV = 5.0
 #: Above this mean count the energy matrix uses the normal approximation of the Poisson law.
 EXACT_POISSON_MAX = 1000.0
+#: Node spacing of :meth:`ResponseModel.resolution_grid` in units of the energy resolution,
+#: and its largest step (MeV).
+RESOLUTION_STEP = 0.3
+GRID_STEP_MAX_MEV = 0.04
 
 
 @dataclass
@@ -336,14 +340,64 @@ class ResponseModel:
                 pk = np.exp(xlogy(k, lam[i]) - lam[i] - gammaln(k + 1.0))
                 loc = (k - d) / y
                 sd = max(extra[i], 1e-12)
-                cdf = pk @ ndtr((g_edges[None, :] - loc[:, None]) / sd)
-                cdf += pdtr(k[0] - 1, lam[i]) if k[0] > 0 else 0.0
+                base = pdtr(k[0] - 1, lam[i]) if k[0] > 0 else 0.0
+                # edges more than 9 σ outside the Poisson range hold the limits (Φ(−9) ≈ 1e-19)
+                lo = int(np.searchsorted(g_edges, loc[0] - 9.0 * sd))
+                hi = int(np.searchsorted(g_edges, loc[-1] + 9.0 * sd))
+                cdf = np.full(g_edges.size, base + pk.sum())
+                cdf[:lo] = base
+                cdf[lo:hi] = base + pk @ ndtr((g_edges[None, lo:hi] - loc[:, None]) / sd)
             else:
                 sd = math.sqrt(lam[i] / y**2 + extra[i] ** 2)
                 cdf = ndtr((g_edges - g_t[i]) / sd)
             p_fine = np.diff(cdf) * weight
             out[i] = np.bincount(parent, weights=p_fine, minlength=edges.size)[:edges.size - 1]
         return out
+
+    def resolution_grid(self, t_lo: float, t_hi: float, fraction: float = RESOLUTION_STEP,
+                        h_max: float = GRID_STEP_MAX_MEV, particle: int = 11,
+                        gamma_energy: float = 0.0) -> np.ndarray:
+        """Nodes in true energy (MeV) spaced by ``fraction`` of the energy resolution σ_T(T).
+
+        For tabulating :meth:`energy_matrix` in T: a bin probability far in the resolution tail
+        is convex in T, and linear interpolation between nodes h apart overestimates it by
+        ≈ (h x/σ)²/8 at x σ from the mean (Taylor's theorem), so the spacing follows σ_T =
+        σ_g / (dg/dT) (σ_g from the Poisson light and the extra smearing of :meth:`sample`),
+        capped at ``h_max`` where there is little or no light (below the Cherenkov threshold).
+
+        Parameters
+        ----------
+        t_lo, t_hi : float
+            Range of true kinetic energy, MeV.
+        fraction : float
+            Node spacing in units of σ_T.
+        h_max : float
+            Largest spacing, MeV.
+        particle, gamma_energy : int, float
+            As in :meth:`energy_matrix`.
+
+        Returns
+        -------
+        ndarray
+            Increasing nodes from ``t_lo`` to ``t_hi`` (MeV).
+        """
+        lat = np.linspace(t_lo, t_hi, 4001)
+        if particle == PDG_GAMMA:
+            mu_c, mu_s = self.mean_light(np.zeros_like(lat), 11, lat)
+        else:
+            mu_c, mu_s = self.mean_light(lat, particle, gamma_energy)
+        s = self.scalars
+        g_t = (mu_c + mu_s) / s["yield"]
+        sig_g = np.sqrt((mu_c + mu_s + s["dark"]) / s["yield"] ** 2
+                        + s["a2_extra"] * g_t + s["b2"] * g_t**2)
+        slope = np.gradient(g_t, lat)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            h = np.where(slope > 1e-9, fraction * sig_g / slope, h_max)
+        h = np.clip(h, 1e-4, h_max)
+        cum = np.concatenate([[0.0], np.cumsum(np.diff(lat) / (0.5 * (h[1:] + h[:-1])))])
+        n = max(int(np.ceil(cum[-1])), 1)
+        return np.unique(np.concatenate([np.interp(np.linspace(0.0, cum[-1], n + 1), cum, lat),
+                                         [t_lo, t_hi]]))
 
     def describe(self) -> dict[str, Any]:
         """Parameters and derived scalars (stored as attributes of ``/response``)."""
