@@ -80,7 +80,6 @@ __all__ = ["Binning", "Templates", "build_templates", "file_templates", "N_MOMEN
 N_MOMENTS = 5
 #: Template variants: nominal, energy scale ±, resolution ±.
 VARIANTS = ("nominal", "scale_up", "scale_down", "res_up", "res_down")
-RECO_T_POINTS = 400
 _KAPPA_GRID = np.exp(np.linspace(math.log(1e-2), math.log(2e3), 81))
 _CE_GRID = np.linspace(0.0, 1.0, 201)
 
@@ -357,7 +356,7 @@ def build_templates(plan: Any, binning: Binning, sens: Any) -> Templates:
         if binning.cos_edges.size > 2 and not resp.directional:
             raise ConfigError("sensitivity.cos_sun_bins: the response has no direction "
                               "reconstruction; use 1")
-        t_grid = np.linspace(t_th, float(plan.recoil.e_max), RECO_T_POINTS)
+        t_grid = resp.resolution_grid(t_th, float(plan.recoil.e_max))
         # the nominal matrix exactly as generator.rates builds it; the shifted pair from one
         # call on the union of their edges
         mats = [resp.energy_matrix(t_grid, edges, 11)]
