@@ -364,13 +364,13 @@ class TemplateModel:
         return self.fit(data, aux, {poi: value}, start)
 
     def interval(self, poi: str, data: np.ndarray, aux: np.ndarray | None,
-                 best: FitResult, level: float = 1.0, guess: float | None = None
-                 ) -> tuple[float, float]:
+                 best: FitResult, level: float = 1.0, guess: float | None = None,
+                 xtol: float = 1e-7) -> tuple[float, float]:
         """End points of {p : −2 ln λ(p) ≤ level} (profile likelihood; 1 → 68.27 %).
 
         Newton iteration (scipy.optimize.root_scalar) on q(p) − level with dq/dp the partial
         derivative of −2 ln L at the profiled point; an end point beyond the parameter's bound
-        is returned as the bound.
+        is returned as the bound. ``xtol`` is the end points' tolerance in units of ``guess``.
         """
         from scipy.optimize import root_scalar
 
@@ -393,7 +393,7 @@ class TemplateModel:
                 x0 = p_hat + 0.5 * (bound - p_hat)
             try:
                 res = root_scalar(g, x0=x0, fprime=True, method="newton",
-                                  xtol=1e-7 * sig, maxiter=50)
+                                  xtol=xtol * sig, maxiter=50)
                 root = float(res.root) if res.converged else math.nan
             except (RuntimeError, ZeroDivisionError, FloatingPointError):
                 root = math.nan

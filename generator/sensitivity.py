@@ -327,7 +327,7 @@ def run_toys(an: Analysis, n_toys: int, seed: int | None = None,
         fitted.append(p_hat)
         errors.append(err)
         if intervals:
-            lo, hi = m.interval(sens.poi, n, aux, best, 1.0, err)
+            lo, hi = m.interval(sens.poi, n, aux, best, 1.0, err, xtol=1e-5)
             covered.append(lo <= truth <= hi)
             errors[-1] = 0.5 * (hi - lo)
             # asymmetric pull: the interval's half on the side of the truth

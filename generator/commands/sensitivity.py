@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import sys
 from typing import Any
 
@@ -60,5 +61,17 @@ def run(args: argparse.Namespace) -> int:
     rep = run_sensitivity(cfg, sens)
     if args.plot is not None:
         plot(rep, args.plot)
-    sys.stdout.write(json.dumps(rep, indent=1) + "\n" if args.json else render(rep))
+    sys.stdout.write(json.dumps(_json_safe(rep), indent=1) + "\n" if args.json
+                     else render(rep))
     return 0
+
+
+def _json_safe(obj: Any) -> Any:
+    """Non-finite floats → null (strict JSON has no NaN or Infinity)."""
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: _json_safe(v) for k, v in obj.items()}
+    if isinstance(obj, list | tuple):
+        return [_json_safe(v) for v in obj]
+    return obj
