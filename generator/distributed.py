@@ -6,14 +6,17 @@ per worker. Either way the run is split into N shards (:mod:`generator.productio
 per shard writes ``.<name>.shards/shard-IIII-of-NNNN.h5`` beside the output, and the parent
 merges them (:mod:`generator.io.merge`) into the output, bit-identical in ``/events`` to a
 single-process run with the same seed. The seed is fixed in the parent (drawn there when none
-is given), so all shards belong to one run. Workers must see the output folder (a shared file
-system on a real cluster). The shard folder is removed after the merge and after a failure.
+is given), so all shards belong to one run. The parent builds the tables once (while the
+cluster starts) and ships them to every worker, which then only generates and writes. Workers
+must see the output folder (a shared file system on a real cluster). The shard folder is
+removed after the merge and after a failure.
 """
 
 from __future__ import annotations
 
 import secrets
 import shutil
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 from typing import Any
 
@@ -51,15 +54,19 @@ def _tune_malloc() -> None:
         pass
 
 
-def _run_shard(cfg: Any, path: str, n_events: int | None, entropy: int, index: int,
+def _run_shard(plan: Any, path: str, n_events: int | None, entropy: int, index: int,
                count: int) -> tuple[int, float, int, int]:
-    """One task: write shard ``index`` of ``count``; (events, expected, chunk size, chunks)."""
+    """One task: write shard ``index`` of ``count``; (events, expected, chunk size, chunks).
+
+    ``plan`` holds the run's tables, built once in the parent and shipped to the workers.
+    """
     _tune_malloc()
     from .pipeline import generate
     from .production import Shard
 
-    s = generate(cfg, path, n_events=n_events, seed=entropy, force=True,
-                 shard=Shard(index, count), threads=1)   # one worker per core already
+    s = generate(plan.config, path, n_events=n_events, seed=entropy, force=True,
+                 shard=Shard(index, count), threads=1,   # one worker per core already
+                 plan=plan)
     return s.n_events, s.expected_events, s.chunk_size, s.n_chunks
 
 
@@ -83,6 +90,12 @@ def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any]:
     return Client(cluster), cluster
 
 
+def _close(client: Any, cluster: Any) -> None:
+    client.close()
+    if cluster is not None:
+        cluster.close()
+
+
 def generate_distributed(cfg: Any, out: str | Path | None = None, *,
                          n_events: int | None = None, seed: int | None = None,
                          force: bool = False, workers: int | None = None,
@@ -92,11 +105,11 @@ def generate_distributed(cfg: Any, out: str | Path | None = None, *,
     Returns
     -------
     generator.pipeline.RunSummary
-        With ``plan`` None (the tables were built on the workers).
+        With ``plan`` None (the tables were shipped to the workers).
     """
     from .io.merge import merge_shards
     from .io.preflight import check_target
-    from .pipeline import RunSummary
+    from .pipeline import RunSummary, build_plan
 
     path = Path(out if out is not None else cfg.output.path)
     known = n_events if n_events is not None else (
@@ -110,27 +123,37 @@ def generate_distributed(cfg: Any, out: str | Path | None = None, *,
             raise InputError(f"{str(folder)!r} exists (shards of an interrupted distributed "
                              "run); remove it or use --force")
         shutil.rmtree(folder)
-    client, cluster = _client(workers, scheduler)
-    try:
-        n = workers if workers is not None else max(1, len(client.scheduler_info()["workers"]))
-        paths = shard_paths(path, n)
-        folder.mkdir(parents=True)
+    # the tables are built once, here, while the cluster starts, and shipped to every worker
+    # (a plan pickles to a few tens of MB in milliseconds; building it takes seconds)
+    with ThreadPoolExecutor(1) as pool:
+        planned = pool.submit(build_plan, cfg)
+        client, cluster = _client(workers, scheduler)
+        closing = None
         try:
-            futures = [client.submit(_run_shard, cfg, str(p), n_events, entropy, i, n,
-                                     pure=False) for i, p in enumerate(paths)]
+            plan = planned.result()
+            n = workers if workers is not None else max(1, len(client.scheduler_info()["workers"]))
+            paths = shard_paths(path, n)
+            folder.mkdir(parents=True)
             try:
-                results = client.gather(futures)
-            except InputError:
-                raise
-            except Exception as exc:
-                raise SunrecoilError(f"a shard task failed: {exc}") from exc
-            merged = merge_shards(path, paths, force=force)
+                shipped = client.scatter(plan, broadcast=True, hash=False)
+                futures = [client.submit(_run_shard, shipped, str(p), n_events, entropy, i, n,
+                                         pure=False) for i, p in enumerate(paths)]
+                try:
+                    results = client.gather(futures)
+                except InputError:
+                    raise
+                except Exception as exc:
+                    raise SunrecoilError(f"a shard task failed: {exc}") from exc
+                del shipped, futures
+                closing = pool.submit(_close, client, cluster)   # meanwhile, merge
+                merged = merge_shards(path, paths, force=force)
+            finally:
+                shutil.rmtree(folder, ignore_errors=True)
         finally:
-            shutil.rmtree(folder, ignore_errors=True)
-    finally:
-        client.close()
-        if cluster is not None:
-            cluster.close()
+            if closing is None:
+                _close(client, cluster)
+            else:
+                closing.result()
     n_total = sum(r[0] for r in results)
     return RunSummary(merged, n_total, results[0][1], entropy, results[0][2],
                       sum(r[3] for r in results), None)

@@ -391,7 +391,8 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
              seed: int | None = None, force: bool = False, sink: Any | None = None,
              progress: Callable[[int], None] | None = None,
              on_start: Callable[[int], None] | None = None, shard: Shard | None = None,
-             resume: bool = False, threads: int | None = None) -> RunSummary:
+             resume: bool = False, threads: int | None = None,
+             plan: RunPlan | None = None) -> RunSummary:
     """Generate events for a configuration and write them to an HDF5 file (or a given sink).
 
     Parameters
@@ -421,6 +422,9 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
     threads : int, optional
         Threads that generate chunks (default :func:`default_threads`: the usable CPUs, at
         most 2); the output does not depend on it.
+    plan : RunPlan, optional
+        The tables of ``cfg``, already built (e.g. shipped to a worker), instead of
+        :func:`build_plan`; its configuration must equal ``cfg``.
 
     Raises
     ------
@@ -439,7 +443,10 @@ def generate(cfg: Config, out: str | Path | None = None, *, n_events: int | None
         check_target(path, force, known, create_folder=out is None)
     elif resume:
         raise InputError("resume needs the HDF5 output (no custom sink)")
-    plan = build_plan(cfg)
+    if plan is None:
+        plan = build_plan(cfg)
+    elif plan.config != cfg:
+        raise InputError("generate: the given plan was built for another configuration")
     n_total = _event_count(plan, entropy, n_events)
     if sink is None and n_events is None and cfg.run.count_mode != "fixed":
         check_target(path, force, n_total)

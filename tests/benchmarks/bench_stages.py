@@ -1,110 +1,139 @@
-"""Benchmark: per-stage split of the ``generate`` event loop (cProfile cumulative times).
+"""Benchmark: per-stage CPU split of the ``generate`` event loop, and its rate.
 
 Usage::
 
-    python tests/benchmarks/bench_stages.py [N]          # default N = 5e5 events per config
+    python tests/benchmarks/bench_stages.py [N] [STAGES]   # default 1e6 events, bkg+resp
 
-For the embedded default (water Cherenkov) and ``configs/scintillator.toml``, with every stage
-that exists switched on (detector response; radioactive backgrounds when the package has them),
-``generate`` runs into a temporary HDF5 file with the default compression and a fixed seed. The
-profiler is switched on by the ``on_start`` callback, i.e. after the tables are built, so only
-the event loop is profiled. The cumulative times of the stage functions are mapped to stages
-and printed as ns/event and % of the loop; "other" is the loop time not inside any listed stage
-function (array assembly, the rejection bookkeeping, dtype conversions). cProfile adds a small
-per-call overhead (the loop makes a few hundred calls per chunk), so the total is a few per cent
-above an unprofiled run. Numbers taken while other jobs use the 2 cores are noisy.
+For the embedded default (water Cherenkov) and ``configs/scintillator.toml`` (see
+``bench_configs.py`` for STAGES: ``bkg+resp`` = response + 10 background species, ``file``,
+``truth``, ``resp``), ``generate`` writes N events to a temporary file with the default
+filter (``deflate``), a fixed seed and the default threads. The stage functions are wrapped
+by timers of the CPU time of the calling thread (``time.thread_time``), exclusive of nested
+stages, in every thread (chunk threads and the writer's encoder threads); so the split holds
+with the thread pools on and its parts add up to the CPU time of the event loop ("other":
+the rest, e.g. array assembly in the chunk and the rejection bookkeeping). It prints the
+wall-clock rate, the CPU time per event and the split in ns/event of CPU and % of the loop's
+CPU (the goal of issue 12: no stage above 40 %), with the load average. The timers cost a
+few per cent; on a shared machine the wall rate varies by ±20–40 %, the CPU split much less.
 """
 
 from __future__ import annotations
 
-import cProfile
-import dataclasses
+import functools
 import os
-import pstats
 import sys
 import tempfile
+import threading
 import time
+from collections import defaultdict
 
-from generator.config import load_config
-from generator.pipeline import generate
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from bench_configs import configured  # noqa: E402
 
-#: stage -> (file name suffix, function name) of the functions whose cumulative time counts.
+#: stage -> (module, attribute path) of the functions whose exclusive CPU time counts.
 STAGES: dict[str, tuple[tuple[str, str], ...]] = {
-    "source + E proposal": (("spectra/sampling.py", "sample"),),
-    "time proposal + Sun vectors": (("exposure.py", "sample_times"), ("exposure.py", "sun")),
-    "flavour probabilities + acceptance": (("oscillation.py", "probabilities"),
-                                           ("chunks.py", "sigma_matrix"),
-                                           ("envelope.py", "__call__")),
-    "recoil sampling": (("recoil.py", "sample"),),
-    "kinematics + vertex": (("kinematics.py", "scatter"), ("geometry.py", "sample")),
-    "response": (("response/__init__.py", "process"),),
-    "backgrounds": (("backgrounds/__init__.py", "sample"), ("backgrounds/sampler.py", "sample"),
-                    ("backgrounds/__init__.py", "process")),
-    "HDF5 encode/write": (("io/writer.py", "write_chunk"),),
+    "source + E proposal": (("generator.spectra.sampling", "InverseCDFSampler.sample"),),
+    "time proposal + Sun vectors": (("generator.exposure", "Exposure.sample_times"),
+                                    ("generator.exposure", "Exposure.sun")),
+    "flavour probabilities + acceptance": (("generator.oscillation",
+                                            "FlavourModel.probabilities"),
+                                           ("generator.chunks", "sigma_matrix"),
+                                           ("generator.envelope", "Envelope.__call__")),
+    "recoil sampling": (("generator.recoil", "RecoilSampler.sample"),),
+    "kinematics + vertex": (("generator.kinematics", "scatter"),
+                            ("generator.geometry", "FiducialVolume.sample")),
+    "backgrounds": (("generator.backgrounds.stage", "BackgroundPlan.fill"),),
+    "response": (("generator.response", "ResponseStage.process"),),
+    "HDF5 encode (deflate, encoder threads)": (("generator.io.writer", "encode_deflate"),),
+    "HDF5 write (buffering, direct chunk writes, flush)": (("generator.io.writer",
+                                                          "HDF5Sink.write_chunk"),
+                                                         ("generator.io.writer",
+                                                          "HDF5Sink.commit")),
 }
 
 
-#: Files of the pipeline itself (calls from them count for a stage).
-PIPELINE_FILES = ("generator/pipeline.py", "generator/chunks.py")
+class StageTimer:
+    """Exclusive per-stage thread CPU time over all threads."""
+
+    def __init__(self) -> None:
+        self.total: dict[str, float] = defaultdict(float)
+        self._local = threading.local()
+        self._lock = threading.Lock()
+
+    def wrap(self, stage: str, fn):
+        @functools.wraps(fn)
+        def timed(*args, **kwargs):
+            stack = self._local.__dict__.setdefault("stack", [])
+            stack.append(0.0)
+            t0 = time.thread_time()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                dt = time.thread_time() - t0
+                inner = stack.pop()
+                if stack:
+                    stack[-1] += dt
+                with self._lock:
+                    self.total[stage] += dt - inner
+        return timed
 
 
-def _with_all_stages(cfg):
-    """Switch on every optional stage the configuration knows about."""
-    changes = {}
-    for name in ("response", "backgrounds"):
-        sec = getattr(cfg, name, None)
-        if sec is not None and hasattr(sec, "enabled"):
-            changes[name] = dataclasses.replace(sec, enabled=True)
-    return dataclasses.replace(cfg, **changes)
+def _install(timer: StageTimer) -> list:
+    import importlib
+
+    undo = []
+    for stage, funcs in STAGES.items():
+        for mod_name, attr in funcs:
+            owner = importlib.import_module(mod_name)
+            *parents, name = attr.split(".")
+            for p in parents:
+                owner = getattr(owner, p)
+            original = owner.__dict__[name] if isinstance(owner, type) else getattr(owner, name)
+            setattr(owner, name, timer.wrap(stage, original))
+            undo.append((owner, name, original))
+    return undo
 
 
-def profile(path: str | None, n: int) -> tuple[float, dict[str, float]]:
-    """Loop wall time (s) and cumulative time per stage (s) of one profiled run."""
-    cfg = _with_all_stages(load_config(path))
-    prof = cProfile.Profile()
+def profile(path: str | None, n: int, stages: str) -> tuple[float, float, dict[str, float]]:
+    """(loop wall s, loop CPU s, exclusive CPU s per stage) of one run."""
+    from generator.pipeline import generate
+
+    cfg = configured(path, stages)
+    timer = StageTimer()
+    undo = _install(timer)
     stamp: dict[str, float] = {}
 
     def start(_m: int) -> None:
-        stamp["t"] = time.perf_counter()
-        prof.enable()
+        timer.total.clear()
+        stamp["t"], stamp["c"] = time.perf_counter(), time.process_time()
 
-    with tempfile.TemporaryDirectory() as d:
-        generate(cfg, os.path.join(d, "b.h5"), n_events=n, seed=1, force=True, on_start=start)
-        prof.disable()
-        loop = time.perf_counter() - stamp["t"]
-    st = pstats.Stats(prof).stats            # (file, line, func) -> (cc, nc, tt, ct, callers)
-    out: dict[str, float] = {}
-    for stage, funcs in STAGES.items():
-        total = 0.0
-        for (fname, _line, func), (_cc, _nc, _tt, ct, callers) in st.items():
-            fname = fname.replace(os.sep, "/")
-            if not any(fname.endswith(suffix) and func == f for suffix, f in funcs):
-                continue
-            # only calls made by the pipeline itself (so a stage calling another stage's
-            # function, e.g. the response asking for the Sun direction, is not counted twice);
-            # calls straight from generate() have no recorded caller (the profiler was
-            # switched on inside a callback)
-            if not callers:
-                total += ct
-                continue
-            total += sum(edge[3] for c, edge in callers.items()
-                         if c[0].replace(os.sep, "/").endswith(PIPELINE_FILES))
-        out[stage] = total
-    return loop, out
+    try:
+        with tempfile.TemporaryDirectory() as d:
+            generate(cfg, os.path.join(d, "b.h5"), n_events=n, seed=1, force=True,
+                     on_start=start)
+            wall = time.perf_counter() - stamp["t"]
+            cpu = time.process_time() - stamp["c"]
+    finally:
+        for owner, name, original in reversed(undo):
+            setattr(owner, name, original)
+    return wall, cpu, dict(timer.total)
 
 
 def main() -> None:
-    n = int(float(sys.argv[1])) if len(sys.argv) > 1 else 500_000
+    n = int(float(sys.argv[1])) if len(sys.argv) > 1 else 1_000_000
+    stages = sys.argv[2] if len(sys.argv) > 2 else "bkg+resp"
     for label, path in (("default (water)", None),
                         ("configs/scintillator.toml", "configs/scintillator.toml")):
-        loop, stages = profile(path, n)
-        print(f"\n{label}: {n} events, loop {loop:.2f} s = {n / loop / 1e6:.2f} M events/s "
-              "(profiled)")
-        print(f"  {'stage':38s} {'ns/event':>9s} {'%':>6s}")
-        other = loop - sum(stages.values())
-        for stage, t in [*stages.items(), ("other (loop bookkeeping)", other)]:
-            note = "" if t > 0 or stage != "backgrounds" else "  (not in this build)"
-            print(f"  {stage:38s} {t / n * 1e9:9.0f} {100 * t / loop:6.1f}{note}")
+        load0 = os.getloadavg()[0]
+        wall, cpu, split = profile(path, n, stages)
+        print(f"\n{label}, {stages}: {n} events, loop {wall:.2f} s = {n / wall / 1e6:.3f} M "
+              f"events/s wall, CPU {cpu / n * 1e9:.0f} ns/event ({cpu / wall:.2f} cores), "
+              f"load average {load0:.2f} -> {os.getloadavg()[0]:.2f}")
+        print(f"  {'stage':52s} {'ns/event':>9s} {'% CPU':>6s}")
+        other = cpu - sum(split.values())
+        for stage in [*STAGES, "other"]:
+            t = other if stage == "other" else split.get(stage, 0.0)
+            print(f"  {stage:52s} {t / n * 1e9:9.0f} {100 * t / cpu:6.1f}")
 
 
 if __name__ == "__main__":
