@@ -176,7 +176,11 @@ def cached_arrays(name: str, key: Mapping[str, Any], build: Callable[[], dict[st
     dict of str to ndarray
     """
     text = key_text(key)
-    folder = Path(directory) if directory is not None else cache_dir()
+    try:
+        folder = Path(directory) if directory is not None else cache_dir()
+    except RuntimeError as exc:           # no $SUNRECOIL_CACHE and no home folder
+        log.info("table cache disabled (%s)", exc)
+        return build()
     path = folder / f"{name}_{hashlib.sha256(text.encode()).hexdigest()[:24]}.npz"
     if path.is_file():
         try:

@@ -163,3 +163,21 @@ def test_custom_source_generates(tmp_path: Path):
         assert names == ["8B", "mine"]
         e = f["events/nu_energy"][:][f["events/origin"][:] == 9]
         assert e.size > 0 and e.min() >= 4.0 and e.max() <= 8.0
+
+
+#: Heavy modules a warm start of the quick commands must not import (issue #12 start-up).
+_HEAVY = ("h5py", "scipy.constants", "scipy.special", "scipy.interpolate", "scipy.integrate")
+
+
+@pytest.mark.parametrize("argv", [["--help"], ["config", "show"]])
+def test_quick_commands_import_no_heavy_modules(argv, tmp_path):
+    """``--help`` and ``config show`` need neither h5py nor a scipy submodule (warm cache)."""
+    script = ("import sys\nfrom generator.cli import main\ntry:\n    main(sys.argv[1:])\n"
+              "except SystemExit:\n    pass\n"
+              f"print('HEAVY', [m for m in {_HEAVY!r} if m in sys.modules], file=sys.stderr)\n")
+    env = {**os.environ, "SUNRECOIL_CACHE": str(tmp_path)}
+    for _ in range(2):                      # the first run fills the cache (constants)
+        r = subprocess.run([sys.executable, "-c", script, *argv], capture_output=True,
+                           text=True, env=env, timeout=120)
+    assert r.returncode == 0, r.stderr
+    assert "HEAVY []" in r.stderr, r.stderr

@@ -19,11 +19,14 @@ import os
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from ..errors import DataFileError, InputError
+from ..io.lock import temp_path_for
 from ..io.preflight import check_target
-from ..io.reader import EventFile
-from ..io.writer import temp_path_for
+
+if TYPE_CHECKING:
+    from ..io.reader import EventFile
 from .records import REQUIRED_FIELDS
 
 __all__ = ["FORMATS", "ExportSummary", "export_file", "require_extra"]
@@ -105,6 +108,8 @@ def export_file(src: str | os.PathLike[str], out: str | os.PathLike[str], fmt: s
     if package is not None:
         require_extra(package, extra, f"the {fmt} export")
     out = Path(out)
+    from ..io.reader import EventFile  # h5py: not needed to list the formats (``--help``)
+
     with EventFile(src) as ev:
         missing = [f for f in REQUIRED_FIELDS if f not in ev.fields]
         if missing:

@@ -7,9 +7,14 @@ interface; ``reader`` reads files back as numpy arrays, whole or in chunks.
 
 from __future__ import annotations
 
-from .reader import EventFile, read_events
-from .schema import EVENT_FIELDS, FRAME_CONVENTION, Field
-from .writer import HDF5Sink, MemorySink
+import importlib
+from typing import Any
+
+#: Public name -> submodule. Imported on first use (PEP 562), so that commands which never
+#: touch an event file (``--help``, ``config show``) do not import h5py (≈ 0.05–0.1 s).
+_LAZY = {"EventFile": "reader", "read_events": "reader", "EVENT_FIELDS": "schema",
+         "FRAME_CONVENTION": "schema", "Field": "schema", "HDF5Sink": "writer",
+         "MemorySink": "writer"}
 
 __all__ = [
     "EVENT_FIELDS",
@@ -20,3 +25,9 @@ __all__ = [
     "MemorySink",
     "read_events",
 ]
+
+
+def __getattr__(name: str) -> Any:
+    if name in _LAZY:
+        return getattr(importlib.import_module(f".{_LAZY[name]}", __name__), name)
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
