@@ -23,25 +23,12 @@ import subprocess
 import sys
 
 CHILD = r"""
-import dataclasses, json, os, sys, tempfile, time
-from generator.backgrounds.config import BackgroundsConfig, IsotopeConfig
-from generator.config import load_config
-from generator.pipeline import build_plan, generate
+import json, os, sys, tempfile, time
+sys.path.insert(0, sys.argv[4])
+from bench_configs import configured
+from generator.pipeline import generate
 n = int(float(sys.argv[1])); path = sys.argv[2] or None; mode = sys.argv[3]
-cfg = load_config(path)
-cfg = dataclasses.replace(cfg, backgrounds=None,
-                          response=dataclasses.replace(cfg.response, enabled="resp" in mode))
-if "bkg" in mode:
-    base = build_plan(cfg)
-    mass = base.fiducial.volume_cm3 * base.medium.density_g_cm3 / 1000.0
-    rate = base.expected_total / 10.0 / (mass * base.exposure.live_seconds)   # Bq/kg
-    names = ["14C", "85Kr", "210Bi", "40K", "210Po", "11C", "214Bi", "208Tl", "12B", "16N"]
-    isos = tuple(IsotopeConfig(x, rate, "Bq/kg", "vessel" if x == "208Tl" else "uniform",
-                               0.3 if x == "208Tl" else None) for x in names)
-    det = cfg.detector
-    cfg = dataclasses.replace(cfg, backgrounds=BackgroundsConfig(
-        True, isos, vessel_radius_m=det.fiducial_radius_m + 0.5,
-        vessel_half_height_m=det.fiducial_half_height_m + 0.5))
+cfg = configured(path, mode)
 d = tempfile.mkdtemp()
 stamp = {}
 out = os.path.join(d, "b.h5")
@@ -54,8 +41,9 @@ print(json.dumps({"events_per_s": n / t}))
 
 
 def _run(*args: str) -> float:
-    out = subprocess.run([sys.executable, "-c", CHILD, *args], capture_output=True, text=True,
-                         check=True)
+    here = os.path.dirname(os.path.abspath(__file__))
+    out = subprocess.run([sys.executable, "-c", CHILD, *args, here], capture_output=True,
+                         text=True, check=True)
     return json.loads(out.stdout.strip().splitlines()[-1])["events_per_s"]
 
 

@@ -7,6 +7,7 @@ Cherenkov) and sets its optional stages:
   background isotopes on, ⁷Be-line dominated signal);
 * ``truth``: response and backgrounds off (truth-level rate);
 * ``resp``: response on, backgrounds off;
+* ``bkg``: the 10 background species below, response off;
 * ``bkg+resp``: response on and 10 background species (¹⁴C, ⁸⁵Kr, ²¹⁰Bi, ⁴⁰K, ²¹⁰Po, ¹¹C,
   ²¹⁴Bi, ²⁰⁸Tl from the vessel, ¹²B, ¹⁶N), each with a rate giving 10 % of the signal count,
   so half of the events are backgrounds (the setting of issues 9 and 12; invented demo rates).
@@ -19,7 +20,7 @@ from __future__ import annotations
 
 import dataclasses
 
-STAGES = ("file", "truth", "resp", "bkg+resp")
+STAGES = ("file", "truth", "resp", "bkg", "bkg+resp")
 
 #: The 10 background species of the ``bkg+resp`` setting.
 BACKGROUND_SPECIES = ("14C", "85Kr", "210Bi", "40K", "210Po", "11C", "214Bi", "208Tl", "12B",
