@@ -409,6 +409,10 @@ def report(an: Analysis, rows: list[dict[str, Any]]) -> dict[str, Any]:
         "config_live_days": t.live_days,
         "expected_config_exposure": {
             "signal": {n: float(v) for n, v in zip(t.sources, sig, strict=True)},
+            **({} if t.flavour_split is None else {
+                f"signal_{g}": {n: float(t.flavour_split[i, k].sum())
+                                for i, n in enumerate(t.sources)}
+                for k, g in enumerate(("nu_e", "nu_mu_tau"))}),
             "background": {n: float(v) for n, v in zip(t.bkg_names, bkg, strict=True)}},
         "parameters": params, "exposures": rows,
         "units": {"exposure_days": "live days", "signal_events/background_events":
@@ -433,6 +437,12 @@ def render(rep: dict[str, Any]) -> str:
            f"{b['energy']} energy {b['energy_edges_mev'][0]:g}–{b['energy_edges_mev'][-1]:g} "
            f"MeV in {len(b['energy_edges_mev']) - 1} bins × {len(b['cos_sun_edges']) - 1} "
            f"cos θ_sun bins × {'/'.join(b['groups'])}; templates from {rep['templates']}\n"]
+    ex = rep["expected_config_exposure"]
+    if "signal_nu_e" in ex:
+        parts = [f"{n} {_fmt(v)} (ν_e {_fmt(ex['signal_nu_e'][n])}, ν_μτ "
+                 f"{_fmt(ex['signal_nu_mu_tau'][n])})" for n, v in ex["signal"].items()]
+        out.append(f"in the bins for the configured {rep['config_live_days']:g} live days: "
+                   f"{'; '.join(parts)}; backgrounds {_fmt(sum(ex['background'].values()))}\n")
     free = [p["name"] for p in rep["parameters"]
             if not p["fixed"] and p["kind"] != "poi"]
     out.append(f"profiled nuisances: {', '.join(free) if free else 'none'}\n\n")

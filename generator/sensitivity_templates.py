@@ -37,9 +37,10 @@ cos ψ between the smeared direction and the neutrino is
     f(x) = κ / (2 sinh κ) · exp(κ x cos θ_e) · I₀(κ √(1 − x²) sin θ_e)
 
 (the azimuthal average of the vMF density, Mardia & Jupp, *Directional Statistics*, Wiley
-2000, §9.3.2; from memory), tabulated once on a (cos θ_e, ln κ) grid. κ is evaluated at the
-*mean* photoelectron counts of the response model at T (the Poisson fluctuation of κ and its
-correlation with the energy are neglected: an approximation), and directions are missing with
+2000, §9.3.2; from memory), tabulated once on a (cos θ_e, ln κ) grid. κ is averaged over
+the Poisson law of the Cherenkov photoelectron count at T (three-point Gauss–Hermite rule in
+its normal approximation); the correlation of that count with the reconstructed energy is
+neglected (an approximation), and directions are missing with
 probability P(n_c = 0) (those events are left out of every cos θ_sun bin, as the file
 templates leave out events with NaN ``reco_cos_sun``). Without a response the bins are of true
 T and true cos θ_sun, exact differences of σ(E; T > cut) with the E-dependent cuts
@@ -51,8 +52,9 @@ Poisson mean and subtraction of the dark noise, the extra stochastic and the con
 scaled so that the total variance is (1 ± σ_r)² times the nominal; the − side is left out when
 the photostatistics floor forbids it).
 
-Backgrounds are isotropic (flat in cos θ_sun) and uniform in live time (night fraction = the
-live-time fraction with the Sun below the horizon).
+Backgrounds (:func:`generator.backgrounds.expected.window_counts`: deposited energy T + γ
+without a response, reconstructed energy with it) are isotropic (flat in cos θ_sun) and
+uniform in live time (night fraction = the live-time fraction with the Sun below the horizon).
 """
 
 from __future__ import annotations
@@ -66,11 +68,11 @@ from typing import Any
 
 import numpy as np
 
+from .backgrounds.expected import window_counts as background_window_counts
 from .constants import ELECTRON_MASS
 from .errors import ConfigError
 from .expected import QUAD_PANELS, ZENITH_CHUNK
 from .kinematics import cos_theta_electron, t_max
-from .sensitivity_backgrounds import background_window_counts
 from .xsec import dsigma_dt_flavours, quadrature_nodes
 
 __all__ = ["Binning", "Templates", "build_templates", "file_templates", "N_MOMENTS",
@@ -80,7 +82,7 @@ __all__ = ["Binning", "Templates", "build_templates", "file_templates", "N_MOMEN
 N_MOMENTS = 5
 #: Template variants: nominal, energy scale ±, resolution ±.
 VARIANTS = ("nominal", "scale_up", "scale_down", "res_up", "res_down")
-_KAPPA_GRID = np.exp(np.linspace(math.log(1e-2), math.log(2e3), 81))
+_KAPPA_GRID = np.exp(np.linspace(math.log(5e-2), math.log(1e3), 241))
 _CE_GRID = np.linspace(0.0, 1.0, 201)
 
 
@@ -124,6 +126,9 @@ class Templates:
     res_sigma: float
     mode: str = "tables"
     meta: dict[str, Any] = field(default_factory=dict)
+    #: nominal counts split by the arriving flavour that scatters, (n_sources, 2, *bins):
+    #: [ν_e-scattering, ν_μ/ν_τ-scattering]
+    flavour_split: np.ndarray | None = None
 
     def nominal_signal(self) -> np.ndarray:
         """Signal counts per source at the nominal parameters, shape (n_sources, *bins)."""
@@ -155,7 +160,13 @@ def vmf_ring_table(cos_edges: tuple[float, ...]) -> np.ndarray:
 
 
 def _angular(table: np.ndarray, ce: np.ndarray, kappa: np.ndarray) -> np.ndarray:
-    """Bilinear interpolation of :func:`vmf_ring_table` at (cos θ_e, κ); shape (..., n_bins)."""
+    """Interpolation of :func:`vmf_ring_table` at (cos θ_e, κ); shape (..., n_bins).
+
+    Bilinear in (cos θ_e, ln κ) of the logarithm of the bin probabilities (the tails fall
+    exponentially with κ, so interpolating them linearly would overestimate them), then
+    renormalised to sum 1.
+    """
+    lt = _log_table(table)
     u = np.clip(ce, 0.0, 1.0) * (_CE_GRID.size - 1)
     i = np.minimum(u.astype(int), _CE_GRID.size - 2)
     fu = (u - i)[..., None]
@@ -163,22 +174,47 @@ def _angular(table: np.ndarray, ce: np.ndarray, kappa: np.ndarray) -> np.ndarray
     v = (lk - math.log(_KAPPA_GRID[0])) / (math.log(_KAPPA_GRID[1]) - math.log(_KAPPA_GRID[0]))
     j = np.minimum(v.astype(int), _KAPPA_GRID.size - 2)
     fv = (v - j)[..., None]
-    return ((1 - fu) * (1 - fv) * table[i, j] + fu * (1 - fv) * table[i + 1, j]
-            + (1 - fu) * fv * table[i, j + 1] + fu * fv * table[i + 1, j + 1])
+    out = np.exp((1 - fu) * (1 - fv) * lt[i, j] + fu * (1 - fv) * lt[i + 1, j]
+                 + (1 - fu) * fv * lt[i, j + 1] + fu * fv * lt[i + 1, j + 1])
+    return out / out.sum(axis=-1, keepdims=True)
+
+
+_LOG_TABLES: dict[int, np.ndarray] = {}
+
+
+def _log_table(table: np.ndarray) -> np.ndarray:
+    key = id(table)
+    if key not in _LOG_TABLES:
+        _LOG_TABLES.clear()
+        _LOG_TABLES[key] = np.log(np.maximum(table, 1e-300))
+    return _LOG_TABLES[key]
+
+
+#: Gauss–Hermite nodes and weights (probabilists', 3 points) for the photoelectron average.
+_GH_Z = np.array([-math.sqrt(3.0), 0.0, math.sqrt(3.0)])
+_GH_W = np.array([1.0 / 6.0, 2.0 / 3.0, 1.0 / 6.0])
 
 
 def _kappa(model: Any, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Concentration κ(T) at the mean photoelectron counts and P(no direction | T)."""
+    """Concentrations κ(T) at three photoelectron counts and P(no direction | T).
+
+    The Cherenkov count n_c of the direction term is Poisson; κ is evaluated at the three-point
+    Gauss–Hermite nodes n_c = λ + z √λ (normal approximation of the Poisson law, exact for the
+    mean and variance) and the angular probabilities are averaged with the weights
+    :data:`_GH_W`. Returns κ with shape (3, n) and P(n_c = 0).
+    """
     s = model.scalars
     mu_c, mu_s = model.mean_light(t)
-    n_pe = mu_c + mu_s + s["dark"]
-    nc = mu_c if model.split_components else n_pe
+    other = mu_s + s["dark"]
+    lam = mu_c if model.split_components else mu_c + other
     rec2 = math.radians(model.params["direction_resolution_deg"]) ** 2
-    rec = rec2 * s["pe_ref_c"] / np.maximum(nc, 1.0)
+    mcs = model.tables["mcs_var"](t)
+    nc = np.maximum(lam[None, :] + _GH_Z[:, None] * np.sqrt(lam)[None, :], 1.0)
+    rec = rec2 * s["pe_ref_c"] / nc
     if model.split_components:
-        rec = rec * (n_pe / np.maximum(nc, 1.0))
-    kappa = 1.0 / (model.tables["mcs_var"](t) + rec)
-    p_none = np.where(mu_c > 0.0, np.exp(-nc), 1.0)
+        rec = rec * (nc + other[None, :]) / nc
+    kappa = 1.0 / (mcs[None, :] + rec)
+    p_none = np.where(mu_c > 0.0, np.exp(-lam), 1.0)
     return kappa, p_none
 
 
@@ -293,16 +329,16 @@ def _reco_cells(xsec: Any, e: np.ndarray, t_th: float, t_grid: np.ndarray,
         nodes, wts = quadrature_nodes(ee, t_th, QUAD_PANELS)
         ds = dsigma_dt_flavours(ee[:, None], nodes, (12, 14, 16), xsec) * wts[None]
         flat = nodes.ravel()
-        # linear interpolation on the uniform grid (as numpy.interp, clamped at the ends)
-        u = np.clip((flat - t_grid[0]) / (t_grid[1] - t_grid[0]), 0.0, t_grid.size - 1.0)
-        i0 = np.minimum(u.astype(int), t_grid.size - 2)
-        fr = (u - i0)[:, None]
+        # linear interpolation on the (non-uniform) grid, as numpy.interp, clamped at the ends
+        i0 = np.clip(np.searchsorted(t_grid, flat, side="right") - 1, 0, t_grid.size - 2)
+        fr = np.clip((flat - t_grid[i0]) / (t_grid[i0 + 1] - t_grid[i0]), 0.0, 1.0)[:, None]
         m = ((1.0 - fr) * matrix[i0] + fr * matrix[i0 + 1]).reshape(
             nodes.shape + (matrix.shape[1],))
         if table is not None:
             kappa, p_none = _kappa(model, flat)
             ce = cos_theta_electron(np.repeat(ee, nodes.shape[1]), flat)
-            ang = _angular(table, ce, kappa) * (1.0 - p_none)[:, None]
+            ang = sum(wk * _angular(table, ce, kappa[k]) for k, wk in enumerate(_GH_W))
+            ang = ang * (1.0 - p_none)[:, None]
             ang = ang.reshape(nodes.shape + (n_cos,))
         else:
             ang = np.ones(nodes.shape + (1,))
@@ -373,6 +409,7 @@ def build_templates(plan: Any, binning: Binning, sens: Any) -> Templates:
     wz = plan.zenith_weights
     gshape = binning.shape
     sig_out = np.zeros((len(plan.sources), N_MOMENTS, nv) + gshape)
+    split = np.zeros((len(plan.sources), 2) + gshape)
     for s, sp in enumerate(plan.sources):
         keep = sp.quad_weights > 0.0
         e, w = sp.quad_energy[keep], sp.quad_weights[keep]
@@ -400,10 +437,15 @@ def build_templates(plan: Any, binning: Binning, sens: Any) -> Templates:
             cells = np.concatenate([cells, np.full((e.size, 2) + cells.shape[2:], np.nan)],
                                    axis=1)
         sig_out[s] = np.einsum("nmga,nvjka->mvgjk", coef, cells)
+        pg = np.stack(sums, axis=1) * (plan.n_electrons * sp.flux * w)[:, None, None]
+        split[s, 0] = np.einsum("ng,njk->gjk", pg[:, :, 0], cells[:, 0, :, :, 0])
+        split[s, 1] = (np.einsum("ng,njk->gjk", pg[:, :, 1], cells[:, 0, :, :, 1])
+                       + np.einsum("ng,njk->gjk", pg[:, :, 2], cells[:, 0, :, :, 2]))
     bg_names, bg_codes, bg = _background_templates(plan, binning, sig_s, sig_r)
     return Templates(binning, [sp.name for sp in plan.sources], [sp.code for sp in plan.sources],
                      sig_out, bg_names, bg_codes, bg,
-                     plan.exposure.live_seconds / SECONDS_PER_DAY, sig_s, sig_r)
+                     plan.exposure.live_seconds / SECONDS_PER_DAY, sig_s, sig_r,
+                     flavour_split=split)
 
 
 def night_live_fraction(plan: Any) -> float:
@@ -461,8 +503,9 @@ def file_templates(path: str, plan: Any, binning: Binning, sens: Any,
     (NaN) are left out when cos θ_sun is binned. Signal events are split into the moments by
     deterministic per-event factors (c_α / P_α(E, cos θ_z) of the flavour model, see
     :func:`_moment_coefficients`); backgrounds by ``origin``. Energy-scale variants rescale
-    the energy (E → (1 ± σ_s) E); resolution variants widen the residual around the true
-    energy (E → T + (1 ± σ_r)(E − T)). The counts are scaled from the file's exposure to the
+    the energy (E → (1 ± σ_s) E); resolution variants widen the residual around the calibrated
+    energy of the deposit's mean light (E → E_c + (1 ± σ_r)(E − E_c)). The counts are scaled
+    from the file's exposure to the
     plan's (same configuration). With ``variance`` the sums of squared weights of the nominal
     variant are kept (``var_signal``, ``var_nominal``, ``var_background``).
     """
@@ -471,6 +514,8 @@ def file_templates(path: str, plan: Any, binning: Binning, sens: Any,
     reco = binning.reco
     fields = ["weight", "is_night", "origin", "nu_pdg", "nu_energy", "sun_cos_zenith",
               "e_kinetic", "cos_sun"]
+    if plan.backgrounds is not None:
+        fields += ["gamma_energy"] + (["particle"] if reco else [])
     if reco:
         fields += ["reco_energy", "reco_cos_sun", "triggered"]
     names = [sp.name for sp in plan.sources]
@@ -481,6 +526,7 @@ def file_templates(path: str, plan: Any, binning: Binning, sens: Any,
     nv = len(VARIANTS)
     sig = np.zeros((len(codes), N_MOMENTS, nv) + binning.shape)
     bkg = np.zeros((len(bg_codes), nv) + binning.shape)
+    split = np.zeros((len(codes), 2) + binning.shape)
     var = {"signal": np.zeros((len(codes), N_MOMENTS) + binning.shape),
            "nominal": np.zeros((len(codes),) + binning.shape),
            "background": np.zeros((len(bg_codes),) + binning.shape)} if variance else None
@@ -499,10 +545,11 @@ def file_templates(path: str, plan: Any, binning: Binning, sens: Any,
         live_file = float(ev.attrs.get("live_seconds", plan.exposure.live_seconds))
         for chunk in ev.iter_chunks(1 << 20, fields):
             _fill_chunk(chunk, plan, binning, sens, codes, bg_codes, sig, bkg, reco,
-                        sig_s, sig_r, var)
+                        sig_s, sig_r, var, split)
     factor = plan.exposure.live_seconds / live_file if live_file > 0 else 1.0
     sig *= factor
     bkg *= factor
+    split *= factor
     if not reco:
         sig[:, :, 3:] = np.nan
         bkg[:, 3:] = np.nan
@@ -513,7 +560,7 @@ def file_templates(path: str, plan: Any, binning: Binning, sens: Any,
 
     out = Templates(binning, names, codes, sig, bg_names, bg_codes, bkg,
                     plan.exposure.live_seconds / SECONDS_PER_DAY, sig_s, sig_r, "file",
-                    {"template_file": path})
+                    {"template_file": path}, split)
     if var is not None:
         out.var_signal = var["signal"] * factor**2
         out.var_nominal = var["nominal"] * factor**2
@@ -523,7 +570,8 @@ def file_templates(path: str, plan: Any, binning: Binning, sens: Any,
 
 def _fill_chunk(ch: dict, plan: Any, binning: Binning, sens: Any, codes: list[int],
                 bg_codes: list[int], sig: np.ndarray, bkg: np.ndarray, reco: bool,
-                sig_s: float, sig_r: float, var: dict | None = None) -> None:
+                sig_s: float, sig_r: float, var: dict | None = None,
+                split: np.ndarray | None = None) -> None:
     w = ch["weight"].astype(np.float64)
     if reco:
         keep = ch["triggered"].astype(bool)
@@ -538,13 +586,24 @@ def _fill_chunk(ch: dict, plan: Any, binning: Binning, sens: Any, codes: list[in
     else:
         cos = np.zeros_like(energy)
     t_true = ch["e_kinetic"].astype(np.float64)
+    origin = ch["origin"].astype(int)
+    if not reco and "gamma_energy" in ch:
+        # backgrounds in true energy: the deposit T + γ, as generator.backgrounds.expected
+        g = np.nan_to_num(ch["gamma_energy"].astype(np.float64))
+        energy = np.where(origin >= min(bg_codes, default=1 << 30), energy + g, energy)
+    # resolution variants widen the residual about the energy of the mean light of the deposit
+    centre = t_true
+    if reco:
+        resp = plan.response
+        mu_c, mu_s = resp.mean_light(t_true, ch.get("particle", 11),
+                                     np.nan_to_num(ch.get("gamma_energy", 0.0)))
+        centre = resp.calibrate((mu_c + mu_s) / resp.scalars["yield"])
     energies = [energy, energy * (1.0 + sig_s), energy * (1.0 - sig_s),
-                t_true + (1.0 + sig_r) * (energy - t_true),
-                t_true + (1.0 - sig_r) * (energy - t_true)]
+                centre + (1.0 + sig_r) * (energy - centre),
+                centre + (1.0 - sig_r) * (energy - centre)]
     group = ch["is_night"].astype(int) if binning.day_night else np.zeros(w.size, int)
     ce = binning.cos_edges
     kc = np.clip(np.searchsorted(ce, cos, side="right") - 1, 0, ce.size - 2)
-    origin = ch["origin"].astype(int)
     shape = binning.shape
     nbin = int(np.prod(shape))
 
@@ -581,6 +640,9 @@ def _fill_chunk(ch: dict, plan: Any, binning: Binning, sens: Any, codes: list[in
         r = np.where(mt > 0.0, pbar[:, 1] / np.where(mt > 0.0, mt, 1.0), 0.5)
         flav = ch["nu_pdg"][sel].astype(int)
         fidx = np.select([flav == 12, flav == 14, flav == 16], [0, 1, 2], -1)
+        if split is not None:
+            split[s, 0] += hist(sel, np.where(fidx == 0, w[sel], 0.0), 1)[0]
+            split[s, 1] += hist(sel, np.where(fidx > 0, w[sel], 0.0), 1)[0]
         p_ev = np.take_along_axis(p, np.maximum(fidx, 0)[:, None], axis=1)[:, 0]
         # an event of flavour α stands for w P_α σ_α; the moment needs κ_α σ_α, so it
         # carries w κ_α / P_α with the per-zenith coefficients κ of the module docstring

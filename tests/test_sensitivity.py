@@ -99,6 +99,11 @@ def test_nominal_templates_are_the_rate_tables(water):
                                rtol=1e-7)
     dn = r.day_night(r.reco_counts.sum(axis=-1))
     np.testing.assert_allclose(nom[:, 1].sum(axis=-1), dn["night"], rtol=1e-7)
+    # ν_e- and ν_μτ-scattering templates per source are the rates' flavour groups
+    split = an.templates.flavour_split.sum(axis=(2, 4))      # (source, flavour, E)
+    fl = r.by_flavour(r.reco_counts.sum(axis=1))
+    np.testing.assert_allclose(split[:, 0], fl["nu_e"], rtol=1e-7)
+    np.testing.assert_allclose(split[:, 1], fl["nu_mu_tau"], rtol=1e-7)
     # ⁸B recoils point away from the Sun: the forward bin holds most of the signal
     # (two-body kinematics, cos θ_e > 0.9 for T > 4 MeV, smeared by the response)
     cos = nom[0].sum(axis=(0, 1))
@@ -202,6 +207,11 @@ def test_file_templates_agree_with_tables(water, tmp_path):
     fil = file_templates(str(path), plan, tab.binning, sens, tab, variance=True)
     checks = [("8B nominal", tab.nominal_signal()[0], fil.nominal_signal()[0],
                fil.var_nominal[0])]
+    # ν_e / ν_μτ split: binomial-like variance from the same file (Σw² of each class)
+    for k, g in enumerate(("nu_e", "nu_mu_tau")):
+        f = fil.flavour_split[0, k]
+        checks.append((f"8B {g}", tab.flavour_split[0, k], f,
+                       f * float(fil.var_nominal[0].sum() / fil.nominal_signal()[0].sum())))
     checks += [(f"8B moment {m}", tab.signal[0, m, 0], fil.signal[0, m, 0], fil.var_signal[0, m])
                for m in (0, 2, 3, 4)]
     checks += [(f"background {n}", tab.background[i, 0], fil.background[i, 0],
