@@ -224,21 +224,27 @@ def compute_rates(cfg: Config, *, threshold: float | None = None, t_edges: Any =
                 _meta(cfg, plan), plan=plan)
     matrix = _reco_matrix(plan, r_e, t_th) if r_e is not None else None
     tabs: dict[str, list[np.ndarray]] = {"t": [], "reco": []}
+    kinds = [(key, n - 1) for key, n in (("t", 0 if t_e is None else t_e.size),
+                                          ("reco", 0 if r_e is None else r_e.size)) if n]
     for sp in plan.sources:
         keep = sp.quad_weights > 0.0
         e, w = sp.quad_energy[keep], sp.quad_weights[keep]
-        scale = plan.n_electrons * sp.flux
-        for key, active in (("t", t_e is not None), ("reco", matrix is not None)):
-            if not active:
-                continue
-            n_bins = (t_e.size if key == "t" else r_e.size) - 1
-            if sp.expected_events <= 0.0 or e.size == 0:
+        if sp.expected_events <= 0.0 or e.size == 0:
+            for key, n_bins in kinds:
                 tabs[key].append(np.zeros((edges.size - 1, n_bins, 3)))
-                continue
-            sig = (window_sigma(plan.xsec, e, plan.pdgs, t_th, t_e) if key == "t" else
-                   _reco_sigma(plan, sp, e, t_th, r_e, matrix))
-            tabs[key].append(scale * zenith_flavour_table(plan.flavour, sp.production_region,
-                                                          e, w, sig, centres, wz))
+            continue
+        # every window column of the source in one table: the flavour probabilities are
+        # evaluated once per source
+        sig = np.concatenate([window_sigma(plan.xsec, e, plan.pdgs, t_th, t_e) if key == "t"
+                              else _reco_sigma(plan, sp, e, t_th, r_e, matrix)
+                              for key, _ in kinds], axis=1) if kinds else None
+        if sig is None:
+            continue
+        tab = plan.n_electrons * sp.flux * zenith_flavour_table(
+            plan.flavour, sp.production_region, e, w, sig, centres, wz)
+        split = np.cumsum([n for _, n in kinds])[:-1]
+        for (key, _), part in zip(kinds, np.split(tab, split, axis=1), strict=True):
+            tabs[key].append(part)
     if t_e is not None:
         out.t_edges, out.t_counts = t_e, np.stack(tabs["t"])
     if r_e is not None:
