@@ -10,7 +10,7 @@ import h5py
 import numpy as np
 
 from ..errors import DataFileError
-from .schema import LAYOUT_VERSION
+from .schema import FIELD_BY_NAME, LAYOUT_VERSION
 
 __all__ = ["EventFile", "read_events", "REQUIRED_ATTRS"]
 
@@ -83,6 +83,14 @@ class EventFile:
         for name, obj in f["events"].items():
             if not isinstance(obj, h5py.Dataset) or obj.ndim < 1:
                 raise DataFileError(f"{where}: events/{name} is not an event dataset")
+            known = FIELD_BY_NAME.get(name)
+            if known is not None:
+                want = np.dtype(known.dtype)
+                if obj.dtype.kind != want.kind or obj.dtype.itemsize > 8 or \
+                        tuple(obj.shape[1:]) != tuple(known.shape):
+                    raise DataFileError(
+                        f"{where}: events/{name} has type {obj.dtype} and row shape "
+                        f"{tuple(obj.shape[1:])}; the schema has {want} and {known.shape}")
             lengths[name] = int(obj.shape[0])
         if not lengths:
             raise DataFileError(f"{where}: /events holds no datasets")
