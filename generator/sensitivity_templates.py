@@ -37,10 +37,12 @@ cos ψ between the smeared direction and the neutrino is
     f(x) = κ / (2 sinh κ) · exp(κ x cos θ_e) · I₀(κ √(1 − x²) sin θ_e)
 
 (the azimuthal average of the vMF density, Mardia & Jupp, *Directional Statistics*, Wiley
-2000, §9.3.2; from memory), tabulated once on a (cos θ_e, ln κ) grid. κ is averaged over
-the Poisson law of the Cherenkov photoelectron count at T (three-point Gauss–Hermite rule in
-its normal approximation); the correlation of that count with the reconstructed energy is
-neglected (an approximation), and directions are missing with
+2000, §9.3.2; from memory), tabulated once on a (cos θ_e, ln κ) grid. κ depends on the
+Poisson Cherenkov photoelectron count, which also moves the reconstructed energy: the
+angular law in each energy bin is a three-point Gauss–Hermite mixture over that count
+(:func:`_mixture_weights`; an approximation: normal law of the count, trigger weights
+inside a bin neglected, the same conditional law for the scale and resolution variants), and
+directions are missing with
 probability P(n_c = 0) (those events are left out of every cos θ_sun bin, as the file
 templates leave out events with NaN ``reco_cos_sun``). Without a response the bins are of true
 T and true cos θ_sun, exact differences of σ(E; T > cut) with the E-dependent cuts
@@ -140,13 +142,13 @@ class Templates:
 def vmf_ring_table(cos_edges: tuple[float, ...]) -> np.ndarray:
     """P(cos ψ in bin k | cos θ_e, κ) on the (cos θ_e, κ) grid, shape (n_ce, n_κ, n_bins).
 
-    Gauss–Legendre integration of f(x) (module docstring) with 48 nodes per bin; each row is
+    Gauss–Legendre integration of f(x) (module docstring) with 32 nodes per bin; each row is
     normalised to its numerical total.
     """
     from scipy.special import i0e
 
     edges = np.asarray(cos_edges)
-    gx, gw = np.polynomial.legendre.leggauss(48)
+    gx, gw = np.polynomial.legendre.leggauss(32)
     half = 0.5 * np.diff(edges)[:, None]
     x = (0.5 * (edges[1:] + edges[:-1])[:, None] + half * gx[None, :]).ravel()
     wx = (half * gw[None, :]).ravel()
@@ -319,11 +321,50 @@ def _true_cells(xsec: Any, e: np.ndarray, t_th: float, edge_sets: list[np.ndarra
     return np.stack(out, axis=1)
 
 
+def _mixture_weights(model: Any, t: np.ndarray, edges: np.ndarray) -> np.ndarray:
+    """Weights W_i(j | T) of the Cherenkov-count nodes in each energy bin, shape (n, 3, J).
+
+    The Cherenkov count n_c sets κ and shifts the light-equivalent energy by (n_c − λ_c)/y.
+    With n_c at the three Gauss–Hermite nodes λ_c + z_i √λ_c (normal approximation), the
+    energy given n_c is Gaussian with the remaining variance (the other light's Poisson
+    variance and the extra smearing of the response model), so the angular law in energy bin
+    j is Σ_i W_i(j) A_k(κ_i) with W_i(j) = w_i P_i(j) / Σ_i w_i P_i(j) (trigger weights
+    inside the bin neglected): selecting an energy bin selects the direction quality too.
+    """
+    from scipy.special import ndtr
+
+    sc = model.scalars
+    y = sc["yield"]
+    mu_c, mu_s = model.mean_light(t)
+    lam_all = mu_c + mu_s + sc["dark"]
+    lam_c = mu_c if model.split_components else lam_all
+    g_t = np.maximum((mu_c + mu_s) / y, 0.0)
+    res = np.sqrt(np.maximum(lam_all - lam_c, 0.0) / y**2 + sc["a2_extra"] * g_t
+                  + sc["b2"] * g_t**2)
+    res = np.maximum(res, 1e-3)
+    g_edges = model.light_equivalent(edges)
+    p = np.stack([wi * np.diff(ndtr((g_edges[None, :] - (g_t + z * np.sqrt(lam_c) / y)[:, None])
+                                    / res[:, None]), axis=1)
+                  for z, wi in zip(_GH_Z, _GH_W, strict=True)], axis=1)    # (n, 3, J)
+    den = p.sum(axis=1, keepdims=True)
+    return np.where(den > 1e-300, p / np.where(den > 1e-300, den, 1.0), _GH_W[None, :, None])
+
+
 def _reco_cells(xsec: Any, e: np.ndarray, t_th: float, t_grid: np.ndarray,
                 matrix: np.ndarray, model: Any, table: np.ndarray | None,
-                n_cos: int) -> np.ndarray:
-    """σ_α(E; reco bin j, cos bin k) for the stacked matrix columns, shape (n, VJ, K, 3)."""
-    out = np.zeros((e.size, matrix.shape[1], n_cos, 3))
+                n_cos: int, edges: np.ndarray) -> np.ndarray:
+    """σ_α(E; reco bin j, cos bin k) for the stacked matrix columns, shape (n, VJ, K, 3).
+
+    Directions: the mixture of :func:`_mixture_weights` (tabulated on ``t_grid``, interpolated
+    like the matrix); every variant uses the nominal conditional angular law.
+    """
+    n_j = edges.size - 1
+    n_v = matrix.shape[1] // n_j
+    out = np.zeros((e.size, n_v, n_j, n_cos, 3))
+    if table is not None:
+        mix = _mixture_weights(model, t_grid, edges)
+        matrix = np.concatenate([matrix, mix.reshape(t_grid.size, -1)], axis=1)
+    n_m = n_v * n_j
     for a in range(0, e.size, 256):
         ee = e[a:a + 256]
         nodes, wts = quadrature_nodes(ee, t_th, QUAD_PANELS)
@@ -332,20 +373,22 @@ def _reco_cells(xsec: Any, e: np.ndarray, t_th: float, t_grid: np.ndarray,
         # linear interpolation on the (non-uniform) grid, as numpy.interp, clamped at the ends
         i0 = np.clip(np.searchsorted(t_grid, flat, side="right") - 1, 0, t_grid.size - 2)
         fr = np.clip((flat - t_grid[i0]) / (t_grid[i0 + 1] - t_grid[i0]), 0.0, 1.0)[:, None]
-        m = ((1.0 - fr) * matrix[i0] + fr * matrix[i0 + 1]).reshape(
-            nodes.shape + (matrix.shape[1],))
+        mm = (1.0 - fr) * matrix[i0] + fr * matrix[i0 + 1]
+        m = mm[:, :n_m].reshape(nodes.shape + (n_v, n_j))
         if table is not None:
             kappa, p_none = _kappa(model, flat)
             ce = cos_theta_electron(np.repeat(ee, nodes.shape[1]), flat)
-            ang = sum(wk * _angular(table, ce, kappa[k]) for k, wk in enumerate(_GH_W))
-            ang = ang * (1.0 - p_none)[:, None]
-            ang = ang.reshape(nodes.shape + (n_cos,))
+            ang = np.stack([_angular(table, ce, kappa[i]) for i in range(_GH_W.size)],
+                           axis=1)                                   # (N, 3, K)
+            w = mm[:, n_m:].reshape(flat.size, _GH_W.size, n_j)
+            ang = np.einsum("nij,nik->njk", w, ang) * (1.0 - p_none)[:, None, None]
+            ang = ang.reshape(nodes.shape + (n_j, n_cos))
         else:
-            ang = np.ones(nodes.shape + (1,))
-        mt = np.swapaxes(m, 1, 2)                                     # (n, VJ, g)
+            ang = np.ones(nodes.shape + (n_j, 1))
         for f in range(3):
-            out[a:a + 256, :, :, f] = mt @ (ds[f][:, :, None] * ang)
-    return out
+            x = ds[f][:, :, None, None] * ang                       # (n, g, J, K)
+            out[a:a + 256, ..., f] = np.einsum("ngvj,ngjk->nvjk", m, x, optimize=True)
+    return out.reshape(e.size, n_m, n_cos, 3)
 
 
 def _edge_sets(edges: np.ndarray, sig_s: float) -> list[np.ndarray]:
@@ -429,7 +472,7 @@ def build_templates(plan: Any, binning: Binning, sens: Any) -> Templates:
         coef *= (plan.n_electrons * sp.flux * w)[:, None, None, None]
         if binning.reco:
             cells = _reco_cells(plan.xsec, e, t_th, t_grid, matrix, resp, table,
-                                gshape[2])                           # (n, V·J, K, 3)
+                                gshape[2], edges)                           # (n, V·J, K, 3)
             cells = cells.reshape(e.size, nv, gshape[1], gshape[2], 3)
         else:
             cells = _true_cells(plan.xsec, e, t_th, _edge_sets(edges, sig_s),
