@@ -91,8 +91,9 @@ READ_FIELDS = ("origin", "nu_pdg", "nu_energy", "e_kinetic", "sun_cos_zenith", "
 #: Bytes per event of the written weights (two float64 columns, uncompressed).
 WEIGHT_BYTES_PER_EVENT = 16.0
 
-#: Events per read chunk (bounded memory: about 60 bytes per event in flight).
-DEFAULT_CHUNK = 1 << 20
+#: Events per read chunk (bounded memory: about 200 bytes per event in flight for the
+#: radiative cross sections, i.e. ≈ 50 MB).
+DEFAULT_CHUNK = 1 << 18
 
 _NAME = re.compile(r"^[A-Za-z0-9_.-]{1,64}$")
 _FLAVOUR_COLUMN = np.full(33, -1, dtype=np.intp)

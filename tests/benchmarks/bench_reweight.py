@@ -23,7 +23,7 @@ import h5py
 from generator.config import parse_config
 from generator.io import EventFile
 from generator.pipeline import build_plan, generate
-from generator.reweight import READ_FIELDS, DensityRatio, load_alternative, reweight
+from generator.reweight import DEFAULT_CHUNK, READ_FIELDS, DensityRatio, load_alternative, reweight
 
 CHANGES = {
     "flux model": "[sources]\nflux_model = \"B16-AGSS09met\"\n",
@@ -65,9 +65,9 @@ def main(n: int) -> None:
             c1 = time.process_time()
             ratio = DensityRatio(cfg, flux, codes, plan, intervals)
             c2 = time.process_time()
-            chunk = {k: v[: 1 << 20] for k, v in events.items()}
+            chunk = {k: v[:DEFAULT_CHUNK] for k, v in events.items()}
             t0 = time.process_time()
-            reps = max(1, n >> 20)
+            reps = max(1, n // DEFAULT_CHUNK)
             for _ in range(reps):
                 ratio(chunk)
             t_ratio = (time.process_time() - t0) / (reps * chunk["origin"].size)
