@@ -74,3 +74,27 @@ def test_failure_in_a_chunk_thread_leaves_no_file(tmp_path: Path, monkeypatch):
         generate(_config(), out, n_events=10_000, seed=1, threads=2)
     assert not out.exists()
     assert not list(tmp_path.iterdir())
+
+
+@pytest.mark.parametrize("extra", [["--threads", "0"], ["--threads", "65"],
+                                   ["--threads", "2", "--workers", "2"]])
+def test_cli_threads_option_checked(tmp_path: Path, extra: list[str], capsys):
+    from generator.cli import main
+
+    out = tmp_path / "x.h5"
+    status = main(["generate", "-o", str(out), "--events", "1000", "--seed", "1", "--quiet",
+                   *extra])
+    assert status == 2
+    assert "--threads" in capsys.readouterr().err
+    assert not out.exists()
+
+
+def test_cli_threads_option_gives_the_same_events(tmp_path: Path):
+    from generator.cli import main
+    from generator.io import read_events
+
+    for t in ("1", "2"):
+        assert main(["generate", "-o", str(tmp_path / f"t{t}.h5"), "--events", "3000",
+                     "--seed", "4", "--quiet", "--threads", t]) == 0
+    a, b = read_events(tmp_path / "t1.h5"), read_events(tmp_path / "t2.h5")
+    assert all(np.array_equal(a[k], b[k]) for k in a)

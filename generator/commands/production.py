@@ -12,7 +12,7 @@ __all__ = ["add_generate_options", "run_generate"]
 
 
 def add_generate_options(g: argparse.ArgumentParser) -> None:
-    """Add --shard, --resume, --workers and --scheduler to the ``generate`` parser."""
+    """Add --shard, --resume, --workers, --scheduler and --threads to the ``generate`` parser."""
     g.add_argument("--shard", metavar="I/N",
                    help="write only shard I of N (0 ≤ I < N): chunks [I·K/N, (I+1)·K/N) of the "
                         "run's K chunks; join the N files with 'sunrecoil merge'")
@@ -25,6 +25,9 @@ def add_generate_options(g: argparse.ArgumentParser) -> None:
     g.add_argument("--scheduler", metavar="ADDRESS",
                    help="run one shard per worker on an existing dask.distributed cluster "
                         "(e.g. tcp://host:8786; workers must see the output folder), then merge")
+    g.add_argument("--threads", type=int, metavar="T",
+                   help="threads that generate chunks in this process (default: the usable "
+                        "CPUs, at most 2); the output does not depend on it")
 
 
 def run_generate(args: argparse.Namespace, cfg: Any, progress: Callable[[int], None] | None,
@@ -38,6 +41,11 @@ def run_generate(args: argparse.Namespace, cfg: Any, progress: Callable[[int], N
         raise InputError("--workers and --scheduler exclude each other; give one")
     if args.workers is not None and not 1 <= args.workers <= 256:
         raise InputError(f"--workers: {args.workers} is not allowed; give 1 … 256")
+    threads = getattr(args, "threads", None)
+    if threads is not None and not 1 <= threads <= 64:
+        raise InputError(f"--threads: {threads} is not allowed; give 1 … 64")
+    if distributed and threads is not None:
+        raise InputError("--threads applies to one process; dask workers use one thread each")
     if distributed and (args.shard or args.resume):
         raise InputError("--shard/--resume apply to one process; with --workers or --scheduler "
                          "the shards are chosen and merged automatically")
@@ -51,4 +59,5 @@ def run_generate(args: argparse.Namespace, cfg: Any, progress: Callable[[int], N
                                     force=args.force, workers=args.workers,
                                     scheduler=args.scheduler, on_start=on_start)
     return generate(cfg, args.output, n_events=args.events, seed=args.seed, force=args.force,
-                    progress=progress, on_start=on_start, shard=shard, resume=args.resume)
+                    progress=progress, on_start=on_start, shard=shard, resume=args.resume,
+                    threads=threads)
