@@ -56,7 +56,8 @@ def run(args: argparse.Namespace) -> int:
                  force=args.force, base=args.base)
     rep = {"output": str(s.path), "group": s.group, "n_events": s.n_events,
            "expected_events": s.expected_events, "weight_sum": s.weight_sum,
-           "weight_sum_mc_error": s.weight_sum_mc_error, "changes": s.attrs["changes"]}
+           "weight_sum_mc_error": s.weight_sum_mc_error, "changes": s.attrs["changes"],
+           "weight_sum_note": s.attrs.get("weight_sum_note", "")}
     if args.json:
         json.dump(rep, sys.stdout, indent=1)
         sys.stdout.write("\n")
@@ -65,4 +66,6 @@ def run(args: argparse.Namespace) -> int:
               f"{rep['changes']}\nalternative expected events {s.expected_events:.6g} "
               f"(deterministic); sum of weights {s.weight_sum:.6g} ± "
               f"{s.weight_sum_mc_error:.2g} (Monte Carlo)")
+        if s.attrs.get("weight_sum_note"):
+            print(f"note: {s.attrs['weight_sum_note']}")
     return 0
