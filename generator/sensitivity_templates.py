@@ -585,6 +585,7 @@ def file_templates(path: str, plan: Any, binning: Binning, sens: Any,
             raise ConfigError(f"sensitivity.template_file: {path!r} lacks the field(s) "
                               f"{missing}; generate it with the same configuration"
                               + (" and [response] on" if reco else ""))
+        _check_same_setup(ev, plan, path)
         live_file = float(ev.attrs.get("live_seconds", plan.exposure.live_seconds))
         for chunk in ev.iter_chunks(1 << 20, fields):
             _fill_chunk(chunk, plan, binning, sens, codes, bg_codes, sig, bkg, reco,
@@ -609,6 +610,30 @@ def file_templates(path: str, plan: Any, binning: Binning, sens: Any,
         out.var_nominal = var["nominal"] * factor**2
         out.var_background = var["background"] * factor**2
     return out
+
+
+def _check_same_setup(ev: Any, plan: Any, path: str) -> None:
+    """Refuse an event file of another detector, source list or background list."""
+    import tomllib
+
+    try:
+        rec = tomllib.loads(str(ev.attrs["config_toml"]))
+    except (KeyError, tomllib.TOMLDecodeError):
+        raise ConfigError(f"sensitivity.template_file: {path!r} has no readable recorded "
+                          "configuration") from None
+    cfg = plan.config
+    name = rec.get("detector", {}).get("name")
+    if name != cfg.detector.name:
+        raise ConfigError(f"sensitivity.template_file: {path!r} was generated for detector "
+                          f"{name!r}, not {cfg.detector.name!r}; use a file of this "
+                          "configuration")
+    have = set(ev.origin_names.values())
+    want = {sp.name for sp in plan.sources}
+    if plan.backgrounds is not None:
+        want |= {p.iso.name for p in plan.backgrounds.isotopes}
+    if not want <= have:
+        raise ConfigError(f"sensitivity.template_file: {path!r} has no events of "
+                          f"{sorted(want - have)}; use a file of this configuration")
 
 
 def _fill_chunk(ch: dict, plan: Any, binning: Binning, sens: Any, codes: list[int],

@@ -41,10 +41,11 @@ def water():
 
 @pytest.fixture(scope="module")
 def small(water):
-    """4 reconstructed-energy bins × 3 cos θ_sun bins, every nuisance profiled."""
+    """Day/night × 4 reconstructed-energy bins × 3 cos θ_sun bins, every nuisance profiled."""
     cfg, plan = water
     sens = SensitivityConfig(exposures_days=(365.0,), poi="flux_8B",
-                             energy_edges_mev=(4.0, 6.0, 8.0, 11.0, 16.0), cos_sun_bins=3)
+                             energy_edges_mev=(4.0, 6.0, 8.0, 11.0, 16.0), cos_sun_bins=3,
+                             day_night=True)
     return prepare(cfg, sens, plan)
 
 
@@ -85,15 +86,12 @@ def test_physics_counting_experiment_matches_closed_form(water):
 
 
 # ----------------------------------------------------------------- templates
-def test_nominal_templates_are_the_rate_tables(water):
+def test_nominal_templates_are_the_rate_tables(water, small):
     """Summed over moments and cos θ_sun, the templates reproduce compute_rates per
     reconstructed window (internal consistency: the same integral, no external source)."""
     cfg, plan = water
-    sens = SensitivityConfig(exposures_days=(1.0,), poi="numutau_scale",
-                             energy_edges_mev=(4.0, 6.0, 8.0, 11.0, 16.0), cos_sun_bins=3,
-                             day_night=True)
-    an = prepare(cfg, sens, plan)
-    r = compute_rates(cfg, reco_edges=sens.energy_edges_mev, plan=plan)
+    an = small
+    r = compute_rates(cfg, reco_edges=an.sens.energy_edges_mev, plan=plan)
     nom = an.templates.nominal_signal()                       # (source, group, E, cos)
     np.testing.assert_allclose(nom.sum(axis=(1, 3)), r.reco_counts.sum(axis=(1, 3)),
                                rtol=1e-7)
@@ -191,16 +189,24 @@ def test_toys_are_reproducible(small):
 
 
 # ----------------------------------------------------------------- file templates
-def test_file_templates_agree_with_tables(water, tmp_path):
+@pytest.fixture(scope="module")
+def event_file(water, tmp_path_factory):
+    """300 000 events of the water demo (response and backgrounds on)."""
+    from generator.pipeline import generate
+
+    path = tmp_path_factory.mktemp("sens") / "t.h5"
+    generate(water[0], path, n_events=300_000, seed=4242)
+    return path
+
+
+def test_file_templates_agree_with_tables(water, event_file):
     """Templates histogrammed from 300 000 generated events agree with the tables: per
     component, χ² = Σ (file − table)² / Σw² over non-empty bins stays below the 0.1 % upper
     quantile of χ²(ndf) (binned goodness of fit, common practice)."""
-    from generator.pipeline import generate
     from generator.sensitivity_templates import file_templates
 
     cfg, plan = water
-    path = tmp_path / "t.h5"
-    generate(cfg, path, n_events=300_000, seed=4242)
+    path = event_file
     sens = SensitivityConfig(exposures_days=(1.0,), energy_edges_mev=(4.0, 6.0, 8.0, 11.0),
                              cos_sun_bins=4, day_night=True)
     tab = prepare(cfg, sens, plan).templates
@@ -264,7 +270,12 @@ def test_cli_bad_input_exits_2_and_writes_nothing(tmp_path, capsys):
         resolve_config(dataclasses.replace(load_config(cfg), sensitivity=None))
 
 
-def test_cli_json_and_plot(tmp_path, capsys):
+def test_cli_json_plot_table_and_file_templates(tmp_path, event_file, capsys):
+    """--json (schema, exposures), --plot (a PNG), the readable table, and `--templates FILE`
+    giving nearly the tables' Asimov σ (the file's templates carry ≈ 1 % statistical noise
+    per bin; 10 % is common practice, no source); a file of another detector is refused."""
+    from generator.sensitivity import render
+
     cfg = _config(tmp_path, "exposures_days = [30, 365]\npoi = \"flux_8B\"\n"
                             "energy_edges_mev = [5.0, 8.0, 12.0]\ncos_sun_bins = 2\n")
     png = tmp_path / "s.png"
@@ -274,10 +285,17 @@ def test_cli_json_and_plot(tmp_path, capsys):
     assert [r["exposure_days"] for r in rep["exposures"]] == [30.0, 365.0]
     assert rep["exposures"][1]["sigma"] < rep["exposures"][0]["sigma"]
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    assert cli.main(["sensitivity", str(cfg), "--exposures", "100"]) == 0
-    out = capsys.readouterr().out
-    assert "σ(POI)" in out and "flux_8B" in out
-
+    text = render(rep)
+    assert "σ(POI)" in text and "flux_8B" in text
+    assert cli.main(["sensitivity", str(cfg), "--json", "--templates", str(event_file)]) == 0
+    fil = json.loads(capsys.readouterr().out)
+    assert fil["templates"] == "file" and fil["template_file"] == str(event_file)
+    for a, b in zip(fil["exposures"], rep["exposures"], strict=True):
+        assert a["sigma"] == pytest.approx(b["sigma"], rel=0.1)
+    other = tmp_path / "other.toml"
+    other.write_text(cfg.read_text().replace("Ossory Deep 100 kt", "Ossory Deeper 100 kt"))
+    assert cli.main(["sensitivity", str(other), "--templates", str(event_file)]) == 2
+    assert "generated for detector" in capsys.readouterr().err
 
 @pytest.mark.parametrize("change,match", [
     ({"poi": "flux_7Be"}, "sources.include"),
@@ -289,3 +307,4 @@ def test_bad_choices_for_this_configuration(water, small, change, match):
 
     with pytest.raises(ConfigError, match=match):
         build_model(water[1], dataclasses.replace(small.sens, **change), small.templates)
+
