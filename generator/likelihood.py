@@ -465,8 +465,8 @@ def _migrad(f: Any, x0: np.ndarray, bounds: list) -> tuple[np.ndarray, bool, str
     try:
         from iminuit import Minuit
     except ImportError:
-        raise ConfigError("sensitivity.minimiser: 'iminuit' is not installed; install the "
-                          "extra or use 'scipy'") from None
+        raise ConfigError("sensitivity.minimiser: 'iminuit' is not installed; install it "
+                          "with pip install 'sunrecoil[fit]' or use 'scipy'") from None
     m = Minuit(lambda x: f(x)[0], x0, grad=lambda x: f(x)[1])
     m.errordef = Minuit.LEAST_SQUARES           # −2 ln L: Δ = 1 for 1σ
     m.limits = [(lo if np.isfinite(lo) else None, hi if np.isfinite(hi) else None)

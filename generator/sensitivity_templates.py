@@ -42,11 +42,12 @@ Poisson Cherenkov photoelectron count, which also moves the reconstructed energy
 angular law in each energy bin is a three-point Gauss–Hermite mixture over that count
 (:func:`_mixture_weights`; an approximation: normal law of the count, trigger weights
 inside a bin neglected, the same conditional law for the scale and resolution variants), and
-directions are missing with
-probability P(n_c = 0) (those events are left out of every cos θ_sun bin, as the file
-templates leave out events with NaN ``reco_cos_sun``). Without a response the bins are of true
-T and true cos θ_sun, exact differences of σ(E; T > cut) with the E-dependent cuts
-T(cos θ) = 2m r/(1 − r), r = cos²θ/(1 + m/E)² (the inverse of the two-body angle).
+directions are missing when n_c = 0, with probability e^{−λ_c} P(j | n_c = 0)/P(j) in energy
+bin j (those events are left out of every cos θ_sun bin, as the file templates leave out
+events with NaN ``reco_cos_sun``; with a single cos θ_sun bin they are kept). Without a
+response the bins are of true T and true cos θ_sun, exact differences of σ(E; T > cut) with
+the E-dependent cuts T(cos θ) = 2m r/(1 − r), r = cos²θ/(1 + m/E)² (the inverse of the
+two-body angle).
 
 Nuisance templates: the energy scale moves reconstructed (or true) window edges to
 edges/(1 ± σ_s); the resolution builds the response with every width scaled by (1 ± σ_r) (the
@@ -322,7 +323,7 @@ def _true_cells(xsec: Any, e: np.ndarray, t_th: float, edge_sets: list[np.ndarra
 
 
 def _mixture_weights(model: Any, t: np.ndarray, edges: np.ndarray) -> np.ndarray:
-    """Weights W_i(j | T) of the Cherenkov-count nodes in each energy bin, shape (n, 3, J).
+    """Weights W_i(j | T) of the Cherenkov-count nodes and P(direction | j, T), (n, 4, J).
 
     The Cherenkov count n_c sets κ and shifts the light-equivalent energy by (n_c − λ_c)/y.
     With n_c at the three Gauss–Hermite nodes λ_c + z_i √λ_c (normal approximation), the
@@ -343,27 +344,38 @@ def _mixture_weights(model: Any, t: np.ndarray, edges: np.ndarray) -> np.ndarray
                   + sc["b2"] * g_t**2)
     res = np.maximum(res, 1e-3)
     g_edges = model.light_equivalent(edges)
-    p = np.stack([wi * np.diff(ndtr((g_edges[None, :] - (g_t + z * np.sqrt(lam_c) / y)[:, None])
-                                    / res[:, None]), axis=1)
+
+    def prob(mean: np.ndarray) -> np.ndarray:
+        return np.diff(ndtr((g_edges[None, :] - mean[:, None]) / res[:, None]), axis=1)
+
+    p = np.stack([wi * prob(g_t + z * np.sqrt(lam_c) / y)
                   for z, wi in zip(_GH_Z, _GH_W, strict=True)], axis=1)    # (n, 3, J)
-    den = p.sum(axis=1, keepdims=True)
-    return np.where(den > 1e-300, p / np.where(den > 1e-300, den, 1.0), _GH_W[None, :, None])
+    den = p.sum(axis=1)
+    ok = den > 1e-300
+    w = np.where(ok[:, None, :], p / np.where(ok, den, 1.0)[:, None, :], _GH_W[None, :, None])
+    # no direction when n_c = 0 (probability e^{−λ_c}); such events carry less light, so the
+    # share without direction in bin j is e^{−λ_c} P(j | n_c = 0) / P(j)
+    g_0 = mu_s / y if model.split_components else np.full(t.size, -sc["dark"] / y)
+    none = np.where(mu_c > 0.0, np.exp(-lam_c), 1.0)[:, None] * prob(g_0)
+    direction = np.clip(1.0 - none / np.where(ok, den, 1.0), 0.0, 1.0)
+    direction = np.where(ok, direction, np.where(mu_c > 0.0, 1.0 - np.exp(-lam_c), 0.0)[:, None])
+    return np.concatenate([w, direction[:, None, :]], axis=1)           # (n, 4, J)
 
 
 def _reco_cells(xsec: Any, e: np.ndarray, t_th: float, t_grid: np.ndarray,
                 matrix: np.ndarray, model: Any, table: np.ndarray | None,
-                n_cos: int, edges: np.ndarray) -> np.ndarray:
+                n_cos: int, edges: np.ndarray, exact: Any = None) -> np.ndarray:
     """σ_α(E; reco bin j, cos bin k) for the stacked matrix columns, shape (n, VJ, K, 3).
 
-    Directions: the mixture of :func:`_mixture_weights` (tabulated on ``t_grid``, interpolated
-    like the matrix); every variant uses the nominal conditional angular law.
+    ``matrix`` holds the variants' response matrices on ``t_grid`` followed (with a direction
+    ``table``) by the mixture of :func:`_mixture_weights`, interpolated linearly at the T
+    nodes; ``exact(T)`` evaluates the same columns at the nodes instead. Every variant uses
+    the nominal conditional angular law.
     """
     n_j = edges.size - 1
-    n_v = matrix.shape[1] // n_j
+    n_mix = (_GH_W.size + 1) * n_j if table is not None else 0
+    n_v = (matrix.shape[1] - n_mix) // n_j
     out = np.zeros((e.size, n_v, n_j, n_cos, 3))
-    if table is not None:
-        mix = _mixture_weights(model, t_grid, edges)
-        matrix = np.concatenate([matrix, mix.reshape(t_grid.size, -1)], axis=1)
     n_m = n_v * n_j
     for a in range(0, e.size, 256):
         ee = e[a:a + 256]
@@ -371,17 +383,21 @@ def _reco_cells(xsec: Any, e: np.ndarray, t_th: float, t_grid: np.ndarray,
         ds = dsigma_dt_flavours(ee[:, None], nodes, (12, 14, 16), xsec) * wts[None]
         flat = nodes.ravel()
         # linear interpolation on the (non-uniform) grid, as numpy.interp, clamped at the ends
-        i0 = np.clip(np.searchsorted(t_grid, flat, side="right") - 1, 0, t_grid.size - 2)
-        fr = np.clip((flat - t_grid[i0]) / (t_grid[i0 + 1] - t_grid[i0]), 0.0, 1.0)[:, None]
-        mm = (1.0 - fr) * matrix[i0] + fr * matrix[i0 + 1]
+        if exact is not None:
+            mm = exact(flat)
+        else:
+            i0 = np.clip(np.searchsorted(t_grid, flat, side="right") - 1, 0, t_grid.size - 2)
+            fr = np.clip((flat - t_grid[i0]) / (t_grid[i0 + 1] - t_grid[i0]), 0.0,
+                         1.0)[:, None]
+            mm = (1.0 - fr) * matrix[i0] + fr * matrix[i0 + 1]
         m = mm[:, :n_m].reshape(nodes.shape + (n_v, n_j))
         if table is not None:
-            kappa, p_none = _kappa(model, flat)
+            kappa, _ = _kappa(model, flat)
             ce = cos_theta_electron(np.repeat(ee, nodes.shape[1]), flat)
             ang = np.stack([_angular(table, ce, kappa[i]) for i in range(_GH_W.size)],
                            axis=1)                                   # (N, 3, K)
-            w = mm[:, n_m:].reshape(flat.size, _GH_W.size, n_j)
-            ang = np.einsum("nij,nik->njk", w, ang) * (1.0 - p_none)[:, None, None]
+            w = mm[:, n_m:].reshape(flat.size, _GH_W.size + 1, n_j)
+            ang = np.einsum("nij,nik->njk", w[:, :-1], ang) * w[:, -1, :, None]
             ang = ang.reshape(nodes.shape + (n_j, n_cos))
         else:
             ang = np.ones(nodes.shape + (n_j, 1))
@@ -436,18 +452,25 @@ def build_templates(plan: Any, binning: Binning, sens: Any) -> Templates:
             raise ConfigError("sensitivity.cos_sun_bins: the response has no direction "
                               "reconstruction; use 1")
         t_grid = resp.resolution_grid(t_th, float(plan.recoil.e_max))
-        # the nominal matrix exactly as generator.rates builds it; the shifted pair from one
-        # call on the union of their edges
-        mats = [resp.energy_matrix(t_grid, edges, 11)]
-        mats += union_matrices(lambda x: resp.energy_matrix(t_grid, x, 11),
-                               _edge_sets(edges, sig_s)[1:])
-        res_models = [_res_variant(resp, 1.0 + sig_r), _res_variant(resp, 1.0 - sig_r)]
-        nan_block = np.full_like(mats[0], np.nan)
-        mats += [r.energy_matrix(t_grid, edges, 11) if r is not None else nan_block
-                 for r in res_models]
-        matrix = np.concatenate(mats, axis=1)
-        if resp.directional:
+        if resp.directional and binning.cos_edges.size > 2:
+            # with one cos θ_sun bin events without a direction count too (as in the files)
             table = vmf_ring_table(tuple(binning.cos_edges.tolist()))
+        res_models = [_res_variant(resp, 1.0 + sig_r), _res_variant(resp, 1.0 - sig_r)]
+
+        def stacked(t: np.ndarray) -> np.ndarray:
+            """Every variant's response matrix (and the direction mixture) at T, (n, ·)."""
+            # the nominal matrix exactly as generator.rates builds it; the shifted pair from
+            # one call on the union of their edges
+            mats = [resp.energy_matrix(t, edges, 11)]
+            mats += union_matrices(lambda x: resp.energy_matrix(t, x, 11),
+                                   _edge_sets(edges, sig_s)[1:])
+            mats += [r.energy_matrix(t, edges, 11) if r is not None
+                     else np.full_like(mats[0], np.nan) for r in res_models]
+            if table is not None:
+                mats.append(_mixture_weights(resp, t, edges).reshape(t.size, -1))
+            return np.concatenate(mats, axis=1)
+
+        matrix = stacked(t_grid)
     centres = 0.5 * (plan.zenith_edges[1:] + plan.zenith_edges[:-1])
     wz = plan.zenith_weights
     gshape = binning.shape
@@ -471,8 +494,14 @@ def build_templates(plan: Any, binning: Binning, sens: Any) -> Templates:
         coef = _moment_coefficients(e, p_day, sums, wg, sens.slope_pivot_mev)
         coef *= (plan.n_electrons * sp.flux * w)[:, None, None, None]
         if binning.reco:
-            cells = _reco_cells(plan.xsec, e, t_th, t_grid, matrix, resp, table,
-                                gshape[2], edges)                           # (n, V·J, K, 3)
+            # line energies evaluate the matrices at every T node (their recoil spectrum ends
+            # sharply at T_max; as generator.rates does)
+            lines = np.isin(e, np.array([en for en, _ in sp.lines], dtype=np.float64))
+            cells = np.zeros((e.size, nv * gshape[1], gshape[2], 3))
+            for sel, exact in ((~lines, None), (lines, stacked)):
+                if sel.any():
+                    cells[sel] = _reco_cells(plan.xsec, e[sel], t_th, t_grid, matrix, resp,
+                                             table, gshape[2], edges, exact)
             cells = cells.reshape(e.size, nv, gshape[1], gshape[2], 3)
         else:
             cells = _true_cells(plan.xsec, e, t_th, _edge_sets(edges, sig_s),
