@@ -308,10 +308,16 @@ class ResponseModel:
         if edges.ndim != 1 or edges.size < 2 or np.any(np.diff(edges) <= 0):
             raise ConfigError("reco_edges: need at least two strictly increasing edges (MeV)")
         thr = self.params["analysis_threshold_mev"]
+        # the turn-on ½ erfc((E₅₀ − E)/(√2 w)) is integrated by the mid-point rule on
+        # sub-bins: besides ``sub_bins`` per bin, nodes every w/4 within ±6 w of E₅₀ (a wide
+        # bin across the turn-on was otherwise up to 4 % high)
+        e50, w_t = self.params["trigger_threshold_mev"], self.params["trigger_width_mev"]
+        turn_on = e50 + w_t * np.arange(-24, 25) / 4.0 if w_t > 0.0 else np.array([e50])
+        turn_on = turn_on[(turn_on > edges[0]) & (turn_on < edges[-1])]
         fine = np.unique(np.concatenate([
             (edges[:-1, None] + np.diff(edges)[:, None]
              * np.arange(sub_bins)[None, :] / sub_bins).ravel(), [edges[-1]],
-            [thr] if edges[0] < thr < edges[-1] else []]))
+            [thr] if edges[0] < thr < edges[-1] else [], turn_on]))
         centre = 0.5 * (fine[1:] + fine[:-1])
         weight = self.trigger_efficiency(centre) * (centre >= thr)
         parent = np.searchsorted(edges, centre, side="right") - 1
