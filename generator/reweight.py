@@ -60,7 +60,9 @@ import hashlib
 import os
 import re
 import tomllib
+from collections import deque
 from collections.abc import Iterator
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -734,16 +736,32 @@ def _write_side(tmp: Path, ev: EventFile, ratio: DensityRatio, attrs: dict[str, 
         d_w.attrs.update({"units": "events", "description": "expected events of the "
                           "alternative represented by this event (event weight x ratio)"})
         start = 0
-        for chunk in _chunks(ev, chunk_size):
-            r = ratio(chunk)
-            w = chunk["weight"] * r
-            stop = start + r.size
-            d_r[start:stop] = r
-            d_w[start:stop] = w
-            s1 += float(r.sum())
-            sw += float(w.sum())
-            sw2 += float(np.dot(w, w))
-            start = stop
+        # ratios of the next chunks are computed in worker threads (numpy releases the GIL)
+        # while this thread reads and writes; results are taken in order, so the file and the
+        # sums are the same for any number of threads
+        from .pipeline import default_threads
+
+        threads = default_threads()
+        pending: deque[tuple[dict[str, np.ndarray], Future[np.ndarray]]] = deque()
+        with ThreadPoolExecutor(threads) as pool:
+            chunks = iter(_chunks(ev, chunk_size))
+            while True:
+                for chunk in chunks:
+                    pending.append((chunk, pool.submit(ratio, chunk)))
+                    if len(pending) > threads:
+                        break
+                if not pending:
+                    break
+                chunk, fut = pending.popleft()
+                r = fut.result()
+                w = chunk["weight"] * r
+                stop = start + r.size
+                d_r[start:stop] = r
+                d_w[start:stop] = w
+                s1 += float(r.sum())
+                sw += float(w.sum())
+                sw2 += float(np.dot(w, w))
+                start = stop
     # standard error of Σw for n events drawn independently from the generated density
     err = float(np.sqrt(max(sw2 - sw * sw / n, 0.0))) if n else 0.0
     return {"n_events": n, "weight_sum": sw, "weight_sum_mc_error": err,
