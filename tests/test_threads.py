@@ -98,3 +98,26 @@ def test_cli_threads_option_gives_the_same_events(tmp_path: Path):
                      "--seed", "4", "--quiet", "--threads", t]) == 0
     a, b = read_events(tmp_path / "t1.h5"), read_events(tmp_path / "t2.h5")
     assert all(np.array_equal(a[k], b[k]) for k in a)
+
+
+def test_interrupt_recorded_during_commit_removes_the_temporary_file(tmp_path: Path):
+    """A SIGINT that arrives while the last chunks are written (deferred inside the HDF5
+    calls) is raised before the rename: no output under the final name, no temporary file."""
+    import signal
+
+    from generator.io import signals
+    from generator.io.schema import EVENT_FIELDS
+    from generator.io.writer import HDF5Sink
+
+    out = tmp_path / "x.h5"
+    sink = HDF5Sink(out, EVENT_FIELDS, chunk_rows=100)
+    sink.write_chunk({f.name: np.zeros((250, *f.shape), f.dtype) for f in EVENT_FIELDS})
+    signals._pending.append(signal.SIGINT)          # as the handler does inside critical()
+    try:
+        with pytest.raises(signals.Interrupted):
+            sink.commit()
+    finally:
+        signals._pending.clear()
+    sink.abort()
+    assert not out.exists()
+    assert not list(tmp_path.iterdir())
