@@ -85,8 +85,10 @@ def _client(workers: int | None, scheduler: str | None) -> tuple[Any, Any]:
             return Client(scheduler, timeout="20s"), None
         except (OSError, TimeoutError, ValueError) as exc:
             raise InputError(f"--scheduler: cannot connect to {scheduler!r} ({exc})") from None
+    # the workers import the generator while they start (in parallel with the parent's tables)
     cluster = LocalCluster(n_workers=workers, processes=True, threads_per_worker=1,
-                           host="127.0.0.1", dashboard_address=None)
+                           host="127.0.0.1", dashboard_address=None,
+                           preload=["generator.pipeline"])
     return Client(cluster), cluster
 
 
