@@ -38,8 +38,11 @@ __all__ = ["FILTERS", "FilterSpec", "STORE_ENTROPY_BITS", "RLE_ENTROPY_BITS", "D
 #: Byte planes with a higher empirical entropy (bits per byte) are stored, not compressed.
 #: Above 7.5 bits deflate saved 0.2–4 % of such a plane (measured on event planes at 7.6–7.85
 #: bits) for 5–8 ns per byte of zlib time; storing them made the default files 0.1–0.2 %
-#: larger (48.44 → 48.49 B/event truth level) and the encoder 10–17 % faster.
-STORE_ENTROPY_BITS = 7.5
+#: larger (48.44 → 48.49 B/event truth level) and the encoder 10–17 % faster. Lowered to 7.0:
+#: on 2¹⁸ events of the water config with response + 10 background species the encoder CPU
+#: fell 15 % (1.31 → 1.11 µs/event single-threaded, interleaved runs) for 1.5 % more bytes
+#: (72.67 → 73.73 B/event).
+STORE_ENTROPY_BITS = 7.0
 
 #: At the default level, byte planes below this entropy (bits per byte: long runs, e.g. a
 #: constant or rarely changing byte) use zlib's run-length strategy, the others Huffman
