@@ -172,7 +172,8 @@ def reco_window_sigma(model: Any, energy: np.ndarray, pdgs: tuple[int, ...],
     (the lines of a source) pass ``exact``, a function T → P(bin | T) of shape (n, k), to
     evaluate it at every node instead: a line's recoil spectrum ends sharply at T_max, and the
     reconstructed spectrum above that edge is a resolution tail, convex in T, which linear
-    interpolation on a grid coarser than ~σ/10 overestimates.
+    interpolation between nodes overestimates (by ≈ (h x/σ)²/8 at x σ, see
+    :meth:`generator.response.model.ResponseModel.resolution_grid`).
 
     Parameters
     ----------

@@ -42,9 +42,11 @@ KEEP = ("origin", "e_kinetic", "is_night")
 class _SlimSink(MemorySink):
     """Memory sink keeping only the fields the checks need (10⁷ events ≈ 70 MB)."""
 
+    keep = KEEP
+
     def write_chunk(self, chunk):
         for f in self.fields:
-            if f.name in KEEP:
+            if f.name in self.keep:
                 self.chunks[f.name].append(np.asarray(chunk[f.name]).astype(f.dtype))
         self.n_written += len(chunk[self.fields[0].name])
 
@@ -147,11 +149,7 @@ RESPONSE_CONFIGS = sorted(str(p) for p in (ROOT / "configs").glob("*.toml"))
 class _RecoSink(_SlimSink):
     """Memory sink keeping the reconstructed-energy fields only."""
 
-    def write_chunk(self, chunk):
-        for f in self.fields:
-            if f.name in KEEP_RECO:
-                self.chunks[f.name].append(np.asarray(chunk[f.name]).astype(f.dtype))
-        self.n_written += len(chunk[self.fields[0].name])
+    keep = KEEP_RECO
 
 
 @pytest.fixture(scope="module", params=RESPONSE_CONFIGS, ids=lambda p: Path(p).name)
